@@ -1,0 +1,257 @@
+/**
+ * Deconvolved linear relation from each object's posterior mean and 2x2 covariance, and the
+ * naive least-squares fit on point estimates shown beside it for comparison.
+ */
+import { PosterityError, problem } from '../problems.ts';
+import { deriveSeed, makeRng } from '../random.ts';
+import { sampleEnsemble } from './ensemble.ts';
+import { chainDiagnostics, summariseChain, thinChain } from './diagnostics.ts';
+import { weightedLeastSquares } from './leastsquares.ts';
+import { MAX_BAND_DRAWS, type RelationFit } from './linear.ts';
+import { startAtMode } from './start.ts';
+import { convergenceWarnings } from './warnings.ts';
+
+export interface DeconvolvedData {
+  /** Posterior means of x and y. */
+  x: Float64Array;
+  y: Float64Array;
+  /** Posterior covariance entries Var x, Var y, Cov(x, y). */
+  cxx: Float64Array;
+  cyy: Float64Array;
+  cxy: Float64Array;
+}
+
+export interface DeconvolvedOptions {
+  pivot: number;
+  seed: number;
+  /** Default 16. */
+  nWalkers?: number;
+  /** Default 400; the first fifth is discarded as burn-in. */
+  nSteps?: number;
+}
+
+function validate(d: DeconvolvedData): number {
+  const n = d.x.length;
+  for (const [name, col] of [['y', d.y], ['cxx', d.cxx], ['cyy', d.cyy], ['cxy', d.cxy]] as const) {
+    if (col.length !== n) {
+      throw new PosterityError(problem({ message: 'deconvolved fit: columns have different lengths', column: name, expected: String(n), got: String(col.length) }));
+    }
+  }
+  if (n < 3) throw new PosterityError(problem({ message: 'deconvolved fit needs at least 3 objects', expected: '>= 3', got: String(n) }));
+  for (let i = 0; i < n; i++) {
+    const { x, y, cxx, cyy, cxy } = { x: d.x[i], y: d.y[i], cxx: d.cxx[i], cyy: d.cyy[i], cxy: d.cxy[i] };
+    const finite = Number.isFinite(x) && Number.isFinite(y) && Number.isFinite(cxx) && Number.isFinite(cyy) && Number.isFinite(cxy);
+    const psd = cxx >= 0 && cyy >= 0 && cxy * cxy <= cxx * cyy * (1 + 1e-9) + 1e-300;
+    if (!finite || !psd) {
+      throw new PosterityError(
+        problem({
+          message: 'deconvolved fit: object has a non-finite mean or a covariance that is not positive semi-definite',
+          row: i + 1,
+          expected: 'finite x, y and cxx >= 0, cyy >= 0, cxy^2 <= cxx cyy',
+          got: `x=${x}, y=${y}, cxx=${cxx}, cyy=${cyy}, cxy=${cxy}`,
+        }),
+      );
+    }
+  }
+  return n;
+}
+
+/**
+ * Log-likelihood of (a, b, s) for y = a + b (x - pivot) with Gaussian intrinsic scatter s in y:
+ * sum_i -1/2 [ln(2 pi V_i) + (y_i - a - b (x_i - pivot))^2 / V_i], V_i = s^2 + Cyy_i - 2 b Cxy_i
+ * + b^2 Cxx_i, the variance of the vertical residual (Hogg, Bovy & Lang 2010, arXiv:1008.4686,
+ * eq. 32, projected vertically instead of orthogonally, with correlated x-y uncertainties).
+ */
+export function deconvolvedLogLikelihood(d: DeconvolvedData, pivot: number, a: number, b: number, s: number): number {
+  let acc = 0;
+  const s2 = s * s;
+  for (let i = 0; i < d.x.length; i++) {
+    const v = s2 + d.cyy[i] - 2 * b * d.cxy[i] + b * b * d.cxx[i];
+    if (!(v > 0)) return -Infinity;
+    const r = d.y[i] - a - b * (d.x[i] - pivot);
+    acc += Math.log(2 * Math.PI * v) + (r * r) / v;
+  }
+  return -0.5 * acc;
+}
+
+/**
+ * Log posterior of (b, ln s) with a marginalised analytically, plus the conditional of a.
+ * Priors: flat in a; flat in the angle theta = arctan b, p(b) ∝ (1 + b^2)^(-3/2) (Hogg, Bovy &
+ * Lang 2010, sect. 3); flat in s for s > 0 (improper; a flat prior in ln s would make the
+ * posterior improper when the scatter is unresolved). Because the likelihood is Gaussian in a,
+ * a | b, s, data ~ N(ybar + sum w r / sum w, 1 / sum w), w_i = 1/V_i, r_i = y_i - ybar - b dx_i,
+ * and integrating a out leaves -1/2 [sum ln V_i + sum w r^2 - (sum w r)^2 / sum w + ln sum w].
+ * The blob receives (conditional mean of a, conditional sd of a).
+ */
+export function marginalPosterior(d: DeconvolvedData, pivot: number): (theta: Float64Array, blob: Float64Array) => number {
+  const n = d.x.length;
+  let ybar = 0;
+  for (let i = 0; i < n; i++) ybar += d.y[i];
+  ybar /= n;
+  const dx = new Float64Array(n);
+  const yc = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    dx[i] = d.x[i] - pivot;
+    yc[i] = d.y[i] - ybar;
+  }
+  const { cxx, cyy, cxy } = d;
+  return (theta, blob) => {
+    const b = theta[0];
+    const lnS = theta[1];
+    if (!Number.isFinite(b) || !(lnS > -50 && lnS < 50)) return -Infinity;
+    const s2 = Math.exp(2 * lnS);
+    let sw = 0, swr = 0, swr2 = 0, sumLog = 0, prod = 1;
+    const twoB = 2 * b;
+    const b2 = b * b;
+    for (let i = 0; i < n; i++) {
+      const v = s2 + cyy[i] - twoB * cxy[i] + b2 * cxx[i];
+      if (!(v > 0)) return -Infinity;
+      const w = 1 / v;
+      const r = yc[i] - b * dx[i];
+      const wr = w * r;
+      sw += w;
+      swr += wr;
+      swr2 += wr * r;
+      // sum of ln V in batches: one logarithm per batch of products
+      prod *= v;
+      if (prod > 1e150 || prod < 1e-150) {
+        sumLog += Math.log(prod);
+        prod = 1;
+      }
+    }
+    sumLog += Math.log(prod);
+    const q = swr2 - (swr * swr) / sw;
+    if (blob.length >= 2) {
+      blob[0] = ybar + swr / sw;
+      blob[1] = 1 / Math.sqrt(sw);
+    }
+    return -0.5 * (sumLog + q + Math.log(sw)) - 1.5 * Math.log1p(b2) + lnS;
+  };
+}
+
+/**
+ * Deconvolved fit of y = a + b (x - pivot) + N(0, s^2) from posterior means and covariances
+ * (likelihood `deconvolvedLogLikelihood`; priors and the analytic marginalisation of a in
+ * `marginalPosterior`). (b, ln s) is sampled with the affine-invariant ensemble sampler
+ * (Goodman & Weare 2010) started from the Laplace approximation at the posterior mode, and
+ * each stored position gets an exact draw of a from its Gaussian conditional, so the (a, b, s)
+ * draws are from the joint posterior. Caveat: the objects' true x values get no population
+ * model (an implicitly flat distribution in x), so when x uncertainties are not small compared
+ * with the spread of x the slope is attenuated, as in ordinary least squares (Kelly 2007,
+ * ApJ 665, 1489, sect. 2); the fit then warns, and the hierarchical fit should be preferred.
+ */
+export function fitDeconvolved(d: DeconvolvedData, opts: DeconvolvedOptions): RelationFit {
+  const n = validate(d);
+  const { pivot, seed } = opts;
+  const nWalkers = opts.nWalkers ?? 16;
+  const nSteps = opts.nSteps ?? 400;
+  const burn = Math.floor(nSteps / 5);
+  const logPost = marginalPosterior(d, pivot);
+  const scratch = new Float64Array(2);
+  const lp = (t: Float64Array): number => logPost(t, scratch);
+
+  // start: ordinary least squares, scatter from the residual variance minus the mean projected error
+  const ols = weightedLeastSquares(d.x, d.y, pivot);
+  let meanErr = 0;
+  for (let i = 0; i < n; i++) meanErr += d.cyy[i] - 2 * ols.b * d.cxy[i] + ols.b * ols.b * d.cxx[i];
+  meanErr /= n;
+  const residVar = ols.chi2 / (n - 2);
+  const s0 = Math.sqrt(Math.max(residVar - meanErr, 0.01 * residVar, 1e-12));
+  const seB = Math.sqrt(ols.varB) || 1e-3;
+  const rng = makeRng(deriveSeed(seed, 'deconvolved', 'start'));
+  const start = startAtMode(
+    lp,
+    Float64Array.of(ols.b, Math.log(s0)),
+    Float64Array.of(3 * seB, 0.3),
+    Float64Array.of(0.1 * seB, 0.1 / Math.sqrt(n)),
+    nWalkers,
+    rng,
+  );
+
+  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim: 2, nSteps, seed: deriveSeed(seed, 'deconvolved', 'ensemble'), blobDim: 2 });
+  const blobs = run.blobs as Float64Array;
+  const m = nSteps * nWalkers;
+  const chain = new Float64Array(m * 3);
+  const rngA = makeRng(deriveSeed(seed, 'deconvolved', 'intercept'));
+  for (let i = 0; i < m; i++) {
+    chain[3 * i] = blobs[2 * i] + blobs[2 * i + 1] * rngA.normal();
+    chain[3 * i + 1] = run.chain[2 * i];
+    chain[3 * i + 2] = Math.exp(run.chain[2 * i + 1]);
+  }
+  const [a, b, s] = summariseChain(chain, nSteps, nWalkers, 3, burn);
+  const diag = chainDiagnostics(chain, nSteps, nWalkers, 3, burn);
+  const warnings = convergenceWarnings(diag, run.acceptance);
+  const attenuation = errorVarianceFraction(d.x, d.cxx);
+  if (attenuation > 0.05) {
+    warnings.push(
+      `x uncertainties are ${(100 * attenuation).toFixed(0)}% of the variance of x: the deconvolved slope is attenuated by about that fraction; prefer the hierarchical fit`,
+    );
+  }
+  return {
+    method: 'deconvolved',
+    n,
+    pivot,
+    a,
+    b,
+    s,
+    diagnostics: { ...diag, acceptance: run.acceptance, nWalkers, nSteps, burn },
+    draws: thinChain(chain, nSteps, nWalkers, 3, burn, MAX_BAND_DRAWS),
+    warnings,
+  };
+}
+
+/** Mean x variance over the sample variance of the x means: the attenuation a flat x model suffers. */
+function errorVarianceFraction(x: Float64Array, cxx: Float64Array): number {
+  const n = x.length;
+  let m = 0;
+  for (let i = 0; i < n; i++) m += x[i];
+  m /= n;
+  let v = 0;
+  let e = 0;
+  for (let i = 0; i < n; i++) {
+    v += (x[i] - m) ** 2;
+    e += cxx[i];
+  }
+  v /= n - 1;
+  e /= n;
+  return v > 0 ? e / v : Infinity;
+}
+
+/**
+ * Naive fit for comparison: ordinary least squares of y on x through point estimates (e.g.
+ * posterior medians), ignoring every uncertainty, with the usual standard errors (Press et al.
+ * 2007, Numerical Recipes 3rd ed., §15.2) and s = sqrt(RSS / (n - 2)), the total residual
+ * scatter (intrinsic plus measurement), with standard error s / sqrt(2 (n - 2)). Estimates are
+ * median ± one standard error; `draws` come from the Gaussian approximation (seeded).
+ */
+export function fitNaive(x: Float64Array, y: Float64Array, pivot: number, seed = 0): RelationFit {
+  const fit = weightedLeastSquares(x, y, pivot);
+  const n = fit.n;
+  const sA = Math.sqrt(fit.varA);
+  const sB = Math.sqrt(fit.varB);
+  const s = Math.sqrt(fit.chi2 / (n - 2));
+  const sS = s / Math.sqrt(2 * (n - 2));
+  const rng = makeRng(deriveSeed(seed, 'naive'));
+  const k = MAX_BAND_DRAWS;
+  const draws = new Float64Array(3 * k);
+  const rho = sA > 0 && sB > 0 ? fit.covAB / (sA * sB) : 0;
+  const c = Math.sqrt(Math.max(0, 1 - rho * rho));
+  for (let i = 0; i < k; i++) {
+    const z1 = rng.normal();
+    const z2 = rng.normal();
+    draws[3 * i] = fit.a + sA * z1;
+    draws[3 * i + 1] = fit.b + sB * (rho * z1 + c * z2);
+    draws[3 * i + 2] = Math.abs(s + sS * rng.normal());
+  }
+  return {
+    method: 'naive',
+    n,
+    pivot,
+    a: { median: fit.a, lo: fit.a - sA, hi: fit.a + sA },
+    b: { median: fit.b, lo: fit.b - sB, hi: fit.b + sB },
+    s: { median: s, lo: s - sS, hi: s + sS },
+    diagnostics: {},
+    draws,
+    warnings: ['ordinary least squares on point estimates: ignores every uncertainty, so its slope is biased when x is uncertain; shown for comparison only'],
+  };
+}

@@ -1,0 +1,157 @@
+/**
+ * The published downloads: the catalogue in CSV, FITS, Arrow and VOTable, the relation
+ * fits, the release metadata with provenance, every draw, the photometry and spectra,
+ * per-object draws and photometry, and SHA256SUMS over all of it.
+ */
+import { createHash } from 'node:crypto';
+import { mkdir, readdir, readFile, stat, writeFile } from 'node:fs/promises';
+import { join, relative } from 'node:path';
+import { gzipSync } from 'node:zlib';
+import type { Bundle } from '../bundle/load.ts';
+import type { Column, Table } from '../io/table.ts';
+import { writeCsv, cellText } from '../io/csv.ts';
+import { writeArrow } from '../io/arrow.ts';
+import type { DownloadEntry } from './content.ts';
+import { slugOf } from '../core/slug.ts';
+
+export const FORMAT_NOTES: Record<string, { format: string; notes: string }> = {
+  'catalogue.csv': { format: 'CSV (RFC 4180)', notes: 'one header row; empty fields are missing values; units and descriptions are on the Columns page' },
+  'catalogue.fits': { format: 'FITS binary table (FITS Standard 4.0)', notes: 'first extension CATALOGUE; TUNITn units, TCOMMn descriptions, TUCDn UCDs; NaN and TNULL for missing values' },
+  'catalogue.arrow': { format: 'Apache Arrow IPC file', notes: 'units, descriptions and UCDs in field metadata (unit, description, ucd)' },
+  'catalogue.vot': { format: 'IVOA VOTable 1.4', notes: 'COOSYS ICRS; FIELD unit (VOUnits), ucd (UCD1+), DESCRIPTION; BINARY2 serialisation for large tables' },
+  'relations.json': { format: 'JSON', notes: 'every relation fit per redshift bin with its method, inputs and convergence diagnostics' },
+  'massfunction.json': { format: 'JSON', notes: 'stellar mass function per redshift bin (1/Vmax) with Poisson and bootstrap uncertainties and Schechter fits' },
+  'calibration.json': { format: 'JSON', notes: 'mock calibration: coverage, PIT, bias, NMAD and outlier fraction per parameter' },
+  'release.json': { format: 'JSON', notes: 'release metadata and provenance: tool version, SHA-256 of every input file, the configuration as used' },
+  'samples.parquet': { format: 'Apache Parquet', notes: 'every posterior draw: id, weight (normalised per object), parameters, log_prior where supplied' },
+  'samples.csv.gz': { format: 'CSV, gzip', notes: 'every posterior draw (the Parquet file holds the same)' },
+  'photometry.csv': { format: 'CSV', notes: 'photometry as supplied, with flux densities in microjansky and pivot wavelengths in micron' },
+  'spectra.csv.gz': { format: 'CSV, gzip', notes: 'observed spectra, in microjansky and micron, with masks and model fluxes' },
+  SHA256SUMS: { format: 'text', notes: 'SHA-256 of every file under downloads/, as written by sha256sum' },
+};
+
+export async function sha256File(path: string): Promise<string> {
+  return createHash('sha256').update(await readFile(path)).digest('hex');
+}
+
+/** Per-object files live in downloads/objects/<slug>/ */
+export function objectDownloadPaths(bundle: Bundle, i: number): { draws: string | null; photometry: string | null } {
+  const slug = slugOf(bundle.objects.id[i]);
+  const hasDraws = !!bundle.samples && bundle.samples.offsets[i + 1] > bundle.samples.offsets[i];
+  const hasPhot = !!bundle.photometry && bundle.photometry.offsets[i + 1] > bundle.photometry.offsets[i];
+  return {
+    draws: hasDraws ? `downloads/objects/${slug}/draws.csv` : null,
+    photometry: hasPhot ? `downloads/objects/${slug}/photometry.csv` : null,
+  };
+}
+
+const g = (v: number) => (Number.isFinite(v) ? String(Number(v.toPrecision(7))) : '');
+
+/** Write one object's draws and photometry as small CSV files. */
+export async function writeObjectDownloads(outDir: string, bundle: Bundle, i: number): Promise<void> {
+  const paths = objectDownloadPaths(bundle, i);
+  const { samples, photometry, config } = bundle;
+  if (!paths.draws && !paths.photometry) return;
+  const dir = join(outDir, 'objects', slugOf(bundle.objects.id[i]));
+  await mkdir(dir, { recursive: true });
+  if (paths.draws && samples) {
+    const names = config.parameters.map((p) => p.name);
+    const head = ['weight', ...names, ...(samples.logPrior ? ['log_prior'] : [])];
+    const a = samples.offsets[i], b = samples.offsets[i + 1];
+    const src = samples.weight ?? samples.logWeight!;
+    // normalised weights
+    let max = -Infinity;
+    if (!samples.weight) for (let r = a; r < b; r++) max = Math.max(max, src[samples.order[r]]);
+    const raw = new Float64Array(b - a);
+    let sum = 0;
+    for (let r = a; r < b; r++) {
+      const v = samples.weight ? src[samples.order[r]] : Math.exp(src[samples.order[r]] - max);
+      raw[r - a] = v;
+      sum += v;
+    }
+    let text = head.join(',') + '\n';
+    for (let r = a; r < b; r++) {
+      const row = samples.order[r];
+      const cells = [g(raw[r - a] / sum), ...samples.params.map((p) => g(p[row]))];
+      if (samples.logPrior) cells.push(g(samples.logPrior[row]));
+      text += cells.join(',') + '\n';
+    }
+    await writeFile(join(dir, 'draws.csv'), text);
+  }
+  if (paths.photometry && photometry) {
+    let text = 'band,flux,flux_err,model_flux,upper_limit,limit_nsigma\n';
+    for (let r = photometry.offsets[i]; r < photometry.offsets[i + 1]; r++) {
+      const row = photometry.order[r];
+      const band = /[",\n]/.test(photometry.band[row]) ? `"${photometry.band[row].replace(/"/g, '""')}"` : photometry.band[row];
+      text += [band, g(photometry.flux[row]), g(photometry.fluxErr[row]), photometry.modelFlux ? g(photometry.modelFlux[row]) : '', photometry.upperLimit ? (photometry.upperLimit[row] ? 'true' : 'false') : '', photometry.limitNsigma ? g(photometry.limitNsigma[row]) : ''].join(',') + '\n';
+    }
+    await writeFile(join(dir, 'photometry.csv'), text);
+  }
+}
+
+/** Every draw, in catalogue order, as a table (weights normalised per object). */
+export function samplesTable(bundle: Bundle): Table | null {
+  const { samples, objects, config } = bundle;
+  if (!samples) return null;
+  const n = samples.order.length;
+  const id = new Array<string>(n);
+  const weight = new Float64Array(n);
+  const params = config.parameters.map(() => new Float64Array(n));
+  const logPrior = samples.logPrior ? new Float64Array(n) : null;
+  const src = samples.weight ?? samples.logWeight!;
+  for (let i = 0; i < objects.n; i++) {
+    const a = samples.offsets[i], b = samples.offsets[i + 1];
+    let max = -Infinity;
+    if (!samples.weight) for (let r = a; r < b; r++) max = Math.max(max, src[samples.order[r]]);
+    let sum = 0;
+    for (let r = a; r < b; r++) sum += samples.weight ? src[samples.order[r]] : Math.exp(src[samples.order[r]] - max);
+    for (let r = a; r < b; r++) {
+      const row = samples.order[r];
+      id[r] = objects.id[i];
+      weight[r] = (samples.weight ? src[row] : Math.exp(src[row] - max)) / sum;
+      params.forEach((p, j) => (p[r] = samples.params[j][row]));
+      if (logPrior) logPrior[r] = samples.logPrior![row];
+    }
+  }
+  const columns: Column[] = [
+    { name: 'id', kind: 'string', values: id, ucd: 'meta.id', description: 'object identifier' },
+    { name: 'weight', kind: 'float64', values: weight, ucd: 'stat.weight', description: 'importance weight, normalised to sum to 1 per object' },
+    ...config.parameters.map((p, j): Column => ({ name: p.name, kind: 'float64', values: params[j], unit: p.unit || undefined, ucd: p.ucd, description: p.description })),
+  ];
+  if (logPrior) columns.push({ name: 'log_prior', kind: 'float64', values: logPrior, description: 'natural log of the interim prior density of the draw' });
+  return { columns, numRows: n };
+}
+
+export async function writeJson(path: string, data: unknown): Promise<void> {
+  await writeFile(path, JSON.stringify(data, null, 1) + '\n');
+}
+
+/** Write SHA256SUMS over every file under `dir` (sorted, sha256sum format) and list the top-level files. */
+export async function writeChecksums(dir: string): Promise<DownloadEntry[]> {
+  const files: string[] = [];
+  const walk = async (d: string) => {
+    const entries = (await readdir(d, { withFileTypes: true })).sort((a, b) => (a.name < b.name ? -1 : a.name > b.name ? 1 : 0));
+    for (const e of entries) {
+      const p = join(d, e.name);
+      if (e.isDirectory()) await walk(p);
+      else if (e.name !== 'SHA256SUMS') files.push(p);
+    }
+  };
+  await walk(dir);
+  files.sort((a, b) => (a < b ? -1 : a > b ? 1 : 0));
+  const lines: string[] = [];
+  const entries: DownloadEntry[] = [];
+  for (const f of files) {
+    const rel = relative(dir, f).split('\\').join('/');
+    const sum = await sha256File(f);
+    lines.push(`${sum}  ${rel}`);
+    if (!rel.includes('/')) {
+      const info = FORMAT_NOTES[rel] ?? { format: rel.split('.').slice(1).join('.'), notes: '' };
+      entries.push({ file: rel, bytes: (await stat(f)).size, sha256: sum, ...info });
+    }
+  }
+  await writeFile(join(dir, 'SHA256SUMS'), lines.join('\n') + '\n');
+  return entries;
+}
+
+export { writeCsv, writeArrow, cellText, gzipSync };

@@ -1,0 +1,106 @@
+/**
+ * A whole release build: pipeline into a staging folder, figures prerendered, the Astro
+ * site built, downloads moved in, and only then the finished folder swapped into place.
+ * A failed or interrupted build removes its staging folder and leaves the previous
+ * output byte for byte as it was.
+ */
+import { spawn } from 'node:child_process';
+import { existsSync, rmSync } from 'node:fs';
+import { mkdir, rename, rm } from 'node:fs/promises';
+import { basename, dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { runPipeline, type PipelineOptions } from '../pipeline/run.ts';
+
+export const PROJECT_ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
+
+export interface BuildOptions {
+  out: string;
+  progress?: PipelineOptions['progress'];
+  log?: (line: string) => void;
+  truth?: PipelineOptions['truth'];
+  /** Keep a copy of the derived content here (default: none). */
+  keepContent?: string;
+}
+
+export interface BuildSummary {
+  objects: number;
+  out: string;
+  warnings: string[];
+  seconds: number;
+}
+
+const staging = new Set<string>();
+let handlersInstalled = false;
+
+function installSignalHandlers(): void {
+  if (handlersInstalled) return;
+  handlersInstalled = true;
+  const cleanup = (sig: NodeJS.Signals) => {
+    for (const dir of staging) {
+      try {
+        // synchronous: the process is about to exit
+        rmSync(dir, { recursive: true, force: true });
+      } catch {
+        /* best effort */
+      }
+    }
+    process.exit(sig === 'SIGINT' ? 130 : 143);
+  };
+  process.once('SIGINT', cleanup);
+  process.once('SIGTERM', cleanup);
+}
+
+function run(cmd: string, args: string[], env: NodeJS.ProcessEnv, log: (l: string) => void): Promise<void> {
+  return new Promise((ok, fail) => {
+    const child = spawn(cmd, args, { cwd: PROJECT_ROOT, env: { ...process.env, ...env }, stdio: ['ignore', 'pipe', 'pipe'] });
+    let tail = '';
+    const take = (b: Buffer) => {
+      const s = b.toString();
+      tail = (tail + s).slice(-8000);
+      for (const line of s.split('\n')) if (line.trim()) log(line);
+    };
+    child.stdout.on('data', take);
+    child.stderr.on('data', take);
+    child.on('error', fail);
+    child.on('close', (code) => (code === 0 ? ok() : fail(new Error(`${cmd} ${args.join(' ')} failed (exit ${code}):\n${tail}`))));
+  });
+}
+
+export async function buildRelease(bundleDir: string, opts: BuildOptions): Promise<BuildSummary> {
+  const t0 = Date.now();
+  const out = resolve(opts.out);
+  const log = opts.log ?? (() => {});
+  const stage = join(dirname(out), `.posterity-tmp-${basename(out)}-${process.pid}`);
+  installSignalHandlers();
+  staging.add(stage);
+  try {
+    await rm(stage, { recursive: true, force: true });
+    await mkdir(stage, { recursive: true });
+    const contentDir = join(stage, 'content');
+    const downloadsDir = join(stage, 'downloads');
+    const result = await runPipeline(resolve(bundleDir), { contentDir, downloadsDir, progress: opts.progress, truth: opts.truth });
+    opts.progress?.('figures', 0, 1);
+    const { prerenderFigures } = await import('../charts/prerender.ts');
+    await prerenderFigures(contentDir, {});
+    opts.progress?.('figures', 1, 1);
+    opts.progress?.('site', 0, 1);
+    const siteDir = join(stage, 'site');
+    await run(process.execPath, [join(PROJECT_ROOT, 'node_modules/astro/astro.js'), 'build', '--silent'], { POSTERITY_CONTENT: contentDir, POSTERITY_OUT: siteDir, ASTRO_TELEMETRY_DISABLED: '1' }, log);
+    opts.progress?.('site', 1, 1);
+    await rm(join(siteDir, 'downloads'), { recursive: true, force: true });
+    await rename(downloadsDir, join(siteDir, 'downloads'));
+    if (opts.keepContent) {
+      await rm(opts.keepContent, { recursive: true, force: true });
+      await rename(contentDir, resolve(opts.keepContent));
+    }
+    // swap into place
+    const old = join(dirname(out), `.posterity-old-${basename(out)}-${process.pid}`);
+    if (existsSync(out)) await rename(out, old);
+    await rename(siteDir, out);
+    await rm(old, { recursive: true, force: true });
+    return { objects: result.objects, out, warnings: result.warnings, seconds: (Date.now() - t0) / 1000 };
+  } finally {
+    await rm(stage, { recursive: true, force: true });
+    staging.delete(stage);
+  }
+}
