@@ -94,8 +94,11 @@ async function cmdBuild(bundle: string, out: string, quiet: boolean, truthFile?:
   try {
     let truth;
     if (truthFile && existsSync(truthFile)) {
-      const t = JSON.parse(readFileSync(truthFile, 'utf8'));
-      truth = t.relationTruth ?? undefined;
+      // a mock's true relations, shown beside the fits
+      const t = JSON.parse(readFileSync(truthFile, 'utf8')) as { relations?: Record<string, { bins: { a: number; aMeanStarForming: number | null; b: number; scatter: number }[] }> };
+      truth = Object.fromEntries(
+        Object.entries(t.relations ?? {}).map(([name, r]) => [name, r.bins.map((b) => ({ a: b.aMeanStarForming ?? b.a, b: b.b, s: b.scatter }))]),
+      );
     }
     const s = await buildRelease(resolve(bundle), { out, progress: progressPrinter(quiet), truth });
     if (!quiet) {

@@ -19,7 +19,7 @@ import {
 } from './scenario.ts';
 import { buildGrid, drawParents, drawTruth, type Galaxy, type ParentHistogram } from './population.ts';
 import { FLAW, SSFR_PRIOR, errorCorrelation, paramList, type ParamSpec } from './params.ts';
-import { SKEW, makePosteriorModel, type ObjectFit } from './posterior.ts';
+import { MULTIMODAL, SKEW, makePosteriorModel, type ObjectFit } from './posterior.ts';
 import { BANDS, SELECTION_BAND, abToUjy, makeSed, modelGrid, round, type SedParams } from './sed.ts';
 import { DOF_SUBTRACT, LIMIT_NSIGMA, POOR_FIT_FRACTION, SPECTRUM, observePhotometry, observeSpectrum } from './observe.ts';
 import { ArrowChunkWriter, CsvChunkWriter } from './writers.ts';
@@ -100,7 +100,6 @@ const DEFAULTS = { seed: 20261201, nObjects: 2400, drawsRange: [500, 2000] as [n
 const SAMPLE_CHUNK_ROWS = 1 << 19;
 const MODEL_POINTS = 200;
 const MODEL_RANGE: [number, number] = [0.3, 10.0];
-const MULTIMODAL_FRACTION = 0.025;
 const SPECIAL_ID = `${FIELD.short}-J0412+3301/2`;
 
 const rng = (seed: number, ...keys: (string | number)[]): Rng => makeRng(deriveSeed(seed, ...keys));
@@ -245,7 +244,7 @@ export async function generateDemoBundle(outDir: string, opts: DemoOptions = {})
     chunk.forEach((g, ci) => {
       const pick = rng(seed, 'pick', g.index);
       const nDraws = dLo + pick.int(dHi - dLo + 1);
-      const multimodal = pick.next() < MULTIMODAL_FRACTION;
+      const multimodal = pick.next() < MULTIMODAL.fraction;
       const fit = model.fit({ z: g.z, mag: g.mag, truth: g.truth, nDraws, multimodal }, rng(seed, 'fit', g.index));
       essAll[g.index] = fit.ess;
       if (fit.multimodal) planted.multimodal.push(g.id);
@@ -452,7 +451,7 @@ export async function generateDemoBundle(outDir: string, opts: DemoOptions = {})
   return { dir, truth, counts };
 }
 
-function stripUndefined(c: Column): Column {
+function stripUndefined(c: { name: string; kind: string; values: unknown }): Column {
   const out = { ...c } as Record<string, unknown>;
   for (const k of Object.keys(out)) if (out[k] === undefined) delete out[k];
   return out as unknown as Column;
@@ -509,4 +508,4 @@ function relationTruth(w: World, galaxies: Galaxy[], params: ParamSpec[]): DemoT
   };
 }
 
-export { POOR_FIT_FRACTION, MULTIMODAL_FRACTION, DOF_SUBTRACT };
+

@@ -172,11 +172,11 @@ export function sedSpec(obj: ObjectContent, opts: SedOptions): TopLevelSpec {
   };
   const yRange = (f: string) => ({ field: f, type: 'quantitative', scale: y.scale });
 
-  const SERIES_DOMAIN = ['observed', 'flux ≤ 0 (at axis floor)', 'upper limit', 'model SED', 'model photometry', 'spectrum'];
+  const SERIES_DOMAIN = ['observed', 'flux ≤ 0 (on axis floor)', 'upper limit', 'model SED', 'model photometry', 'spectrum'];
   const SERIES_RANGE = [COLOURS.ink, COLOURS.ink, COLOURS.ink, COLOURS.blue, COLOURS.vermillion, COLOURS.green];
   const present = new Set<string>();
   if (meas.length) present.add('observed');
-  if (floor.length) present.add('flux ≤ 0 (at axis floor)');
+  if (floor.length) present.add('flux ≤ 0 (on axis floor)');
   if (limits.length) present.add('upper limit');
   if (lines.length) present.add('model SED');
   if (model.length) present.add('model photometry');
@@ -240,12 +240,12 @@ export function sedSpec(obj: ObjectContent, opts: SedOptions): TopLevelSpec {
     layers.push({
       data: { values: floor },
       mark: { type: 'rule', strokeWidth: 1.2, clip: true },
-      encoding: { x, y: yRange('lo'), y2: { field: 'hi' }, color: colour('flux ≤ 0 (at axis floor)') },
+      encoding: { x, y: yRange('lo'), y2: { field: 'hi' }, color: colour('flux ≤ 0 (on axis floor)') },
     });
     layers.push({
       data: { values: floor },
       mark: { type: 'point', shape: 'circle', size: 40, filled: false, strokeWidth: 1.5, opacity: 1 },
-      encoding: { x, y, color: colour('flux ≤ 0 (at axis floor)') },
+      encoding: { x, y, color: colour('flux ≤ 0 (on axis floor)') },
     });
   }
   if (limits.length) {

@@ -17,6 +17,8 @@ export const COLOURS = Object.freeze({
   muted: '#595959',
   /** Grid lines and panel frames. */
   grid: '#d9d9d9',
+  /** Page colour, for legend backgrounds and halo strokes. */
+  paper: '#ffffff',
   /** Shaded regions (masked spectral ranges, empty cells). */
   shade: '#bfbfbf',
   blue: '#0072b2',
@@ -46,6 +48,7 @@ export const DARK_REMAP: Readonly<Record<string, string>> = Object.freeze({
   [COLOURS.muted]: '#b3b3b3',
   [COLOURS.grid]: '#3a3d42',
   [COLOURS.shade]: '#4a4d52',
+  [COLOURS.paper]: '#121417',
   [COLOURS.blue]: '#62b7ef',
   [COLOURS.vermillion]: '#f39a5c',
   [COLOURS.green]: '#3fd1a5',

@@ -40,7 +40,7 @@ export function objectDownloadPaths(bundle: Bundle, i: number): { draws: string 
   const hasDraws = !!bundle.samples && bundle.samples.offsets[i + 1] > bundle.samples.offsets[i];
   const hasPhot = !!bundle.photometry && bundle.photometry.offsets[i + 1] > bundle.photometry.offsets[i];
   return {
-    draws: hasDraws ? `downloads/objects/${slug}/draws.csv` : null,
+    draws: hasDraws ? `downloads/objects/${slug}/draws.csv.gz` : null,
     photometry: hasPhot ? `downloads/objects/${slug}/photometry.csv` : null,
   };
 }
@@ -76,7 +76,7 @@ export async function writeObjectDownloads(outDir: string, bundle: Bundle, i: nu
       if (samples.logPrior) cells.push(g(samples.logPrior[row]));
       text += cells.join(',') + '\n';
     }
-    await writeFile(join(dir, 'draws.csv'), text);
+    await writeFile(join(dir, 'draws.csv.gz'), gzipSync(Buffer.from(text), { level: 6 }));
   }
   if (paths.photometry && photometry) {
     let text = 'band,flux,flux_err,model_flux,upper_limit,limit_nsigma\n';

@@ -2,7 +2,7 @@
  * Adapters from the pipeline's arrays to the relation methods of the core.
  */
 import type { RelationConfig, ReleaseConfig } from '../bundle/schema.ts';
-import type { PopulationInputs } from './population.ts';
+import { stepsFor, type PopulationInputs } from './population.ts';
 import type { PopulationDraws } from './summarise.ts';
 import type { BinFit, MethodFit } from './content.ts';
 import type { RelationFit } from '../core/relations/linear.ts';
@@ -52,7 +52,7 @@ export function hierarchicalIfAvailable(
     }
     offsets[s + 1] = o;
   }
-  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets }, { pivot: rel.pivot, seed, maxDraws: m });
+  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 16, nSteps: stepsFor(o * 16, 3e8, 400, 1500) });
   let small = 0;
   for (const e of fit.effectiveDraws) if (e < 5) small++;
   if (small > 0) fit.warnings.push(`${small} of ${nSel} objects have fewer than 5 effective draws carrying the likelihood; their marginal likelihoods are noisy`);

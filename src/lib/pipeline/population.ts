@@ -44,6 +44,11 @@ function methodFit(f: RelationFit, diag: Record<string, number | number[] | stri
   return { method: f.method, n: f.n, a: est(f.a), b: est(f.b), s: est(f.s), diagnostics: d, warnings: f.warnings };
 }
 
+/** MCMC length from a work budget (likelihood terms), so small bins get long chains and big ones stay fast. */
+export function stepsFor(termsPerStep: number, budget: number, min: number, max: number): number {
+  return Math.max(min, Math.min(max, Math.round(budget / Math.max(1, termsPerStep))));
+}
+
 function binOf(z: number, edges: number[]): number {
   if (!(z >= edges[0]) || z > edges[edges.length - 1]) return -1;
   for (let k = 0; k < edges.length - 1; k++) if (z < edges[k + 1] || k === edges.length - 2) return k;
@@ -159,7 +164,7 @@ function fitRelation(
     const seed = deriveSeed(config.seed, rel.name, b);
     let preferred: RelationFit | null = null;
     if (rel.methods.includes('deconvolved')) {
-      const f = fitDeconvolved(d, { pivot: rel.pivot, seed });
+      const f = fitDeconvolved(d, { pivot: rel.pivot, seed, nWalkers: 16, nSteps: stepsFor(idx.length * 16, 3e7, 400, 2000) });
       bin.fits.push(methodFit(f));
       preferred = f;
     }

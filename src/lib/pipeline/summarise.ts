@@ -63,6 +63,13 @@ export interface ObjectCharts {
 
 export const MASS_LEVELS = [0.68, 0.95] as const;
 
+/**
+ * Multimodality rule: a weighted Gaussian KDE at Silverman's bandwidth; a secondary peak
+ * counts when its basin holds at least `minMass` of the posterior and the valley between
+ * it and its neighbour is below half the lower peak's height.
+ */
+export const MULTIMODAL_OPTS = (minMass: number) => ({ minMass, bandwidthFactor: 1, maxValleyRatio: 0.5 });
+
 function allocF(n: number, k: number, fill = NaN): Float64Array[] {
   return Array.from({ length: k }, () => new Float64Array(n).fill(fill));
 }
@@ -274,7 +281,7 @@ export async function summariseAll(bundle: Bundle, opts: SummariseOptions): Prom
       t.hdi68hi[j][i] = s.hdi68[1];
       t.hdi95lo[j][i] = s.hdi95[0];
       t.hdi95hi[j][i] = s.hdi95[1];
-      if (isMultimodal(xs[j], w, { minMass: q.multimodalMinMass })) {
+      if (isMultimodal(xs[j], w, MULTIMODAL_OPTS(q.multimodalMinMass))) {
         t.multimodal[j][i] = 1;
         flags |= FLAGS.MULTIMODAL;
       }

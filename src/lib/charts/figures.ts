@@ -1,0 +1,73 @@
+/**
+ * The prerendered figures, by path under `content/figures/`: the one list prerender writes
+ * and the pages read, so the two cannot drift apart.
+ */
+import type { TopLevelSpec } from 'vega-lite';
+import type { MassFunctionContent, ObjectContent, QualityContent, RelationContent, SiteContent } from '../pipeline/content.ts';
+import { cornerSpec } from './corner.ts';
+import { massSpec, redshiftSpec } from './home.ts';
+import { massFunctionSpec } from './massfunction.ts';
+import { coverageSpec, essSpec, flagsByRedshiftSpec, flagsSpec, pitSpec, pvalueSpec } from './quality.ts';
+import { relationSpec } from './relation.ts';
+import { sedSpec } from './sed.ts';
+import { skySpec } from './sky.ts';
+
+export interface FigureJob {
+  /** Path under `content/figures/`, forward slashes. */
+  path: string;
+  spec: TopLevelSpec;
+}
+
+export const FIGURES = Object.freeze({
+  objectSed: (slug: string) => `objects/${slug}/sed.svg`,
+  objectSedMag: (slug: string) => `objects/${slug}/sed-mag.svg`,
+  objectCorner: (slug: string) => `objects/${slug}/corner.svg`,
+  relation: (name: string) => `relations/${name}.svg`,
+  sky: 'home/sky.svg',
+  redshift: 'home/redshift.svg',
+  mass: 'home/mass.svg',
+  qualityEss: 'quality/ess.svg',
+  qualityPvalue: 'quality/pvalue.svg',
+  qualityFlags: 'quality/flags.svg',
+  qualityFlagsByRedshift: 'quality/flags-by-redshift.svg',
+  qualityCoverage: 'quality/coverage.svg',
+  qualityPit: 'quality/pit.svg',
+  massFunction: 'massfunction.svg',
+});
+
+export function objectFigureJobs(obj: ObjectContent): FigureJob[] {
+  const jobs: FigureJob[] = [];
+  if (obj.photometry.length || obj.spectra.length || obj.model) {
+    jobs.push({ path: FIGURES.objectSed(obj.slug), spec: sedSpec(obj, { units: 'flux' }) });
+    jobs.push({ path: FIGURES.objectSedMag(obj.slug), spec: sedSpec(obj, { units: 'mag' }) });
+  }
+  if (obj.marginals.length) jobs.push({ path: FIGURES.objectCorner(obj.slug), spec: cornerSpec(obj) });
+  return jobs;
+}
+
+export function siteFigureJobs(
+  site: SiteContent,
+  relations: RelationContent[],
+  quality: QualityContent | null,
+  massFunction: MassFunctionContent | null,
+  thresholds: { ess?: number; pvalue?: number } = {},
+): FigureJob[] {
+  const jobs: FigureJob[] = [];
+  if (site.sky.cells.length) jobs.push({ path: FIGURES.sky, spec: skySpec(site) });
+  if (site.redshiftHist.counts.length) jobs.push({ path: FIGURES.redshift, spec: redshiftSpec(site) });
+  if (site.massHist.edges.length > 1) jobs.push({ path: FIGURES.mass, spec: massSpec(site) });
+  for (const r of relations) jobs.push({ path: FIGURES.relation(r.name), spec: relationSpec(r) });
+  if (quality) {
+    const labels = Object.fromEntries(site.flags.map((f) => [f.name, f.label]));
+    jobs.push({ path: FIGURES.qualityEss, spec: essSpec(quality, thresholds.ess) });
+    jobs.push({ path: FIGURES.qualityPvalue, spec: pvalueSpec(quality, thresholds.pvalue) });
+    if (quality.flagCounts.length) jobs.push({ path: FIGURES.qualityFlags, spec: flagsSpec(quality) });
+    if (quality.flagsByRedshift.length) jobs.push({ path: FIGURES.qualityFlagsByRedshift, spec: flagsByRedshiftSpec(quality, labels) });
+    if (quality.calibration.length) {
+      jobs.push({ path: FIGURES.qualityCoverage, spec: coverageSpec(quality) });
+      jobs.push({ path: FIGURES.qualityPit, spec: pitSpec(quality) });
+    }
+  }
+  if (massFunction && massFunction.bins.length) jobs.push({ path: FIGURES.massFunction, spec: massFunctionSpec(massFunction) });
+  return jobs;
+}

@@ -1,0 +1,66 @@
+/**
+ * Histograms from pre-binned counts (edges and counts), one or several series drawn as
+ * overlapping translucent bars; the site never bins data itself.
+ */
+import type { TopLevelSpec } from 'vega-lite';
+import { baseConfig, COLOURS, SCHEMA, SERIES } from './theme.ts';
+
+export interface HistogramSeries {
+  name: string;
+  counts: number[];
+}
+
+export interface HistogramOptions {
+  title: string;
+  description: string;
+  xTitle: string;
+  yTitle?: string;
+  width?: number;
+  height?: number;
+  /** Vertical reference lines, e.g. a threshold. */
+  rules?: { x: number; label: string }[];
+  /** A horizontal reference level, e.g. the uniform expectation of a PIT histogram. */
+  level?: { y: number; label: string };
+  logY?: boolean;
+}
+
+const r6 = (x: number): number => Math.round(x * 1e6) / 1e6;
+
+export function histogramSpec(edges: number[], series: HistogramSeries[], opts: HistogramOptions): TopLevelSpec {
+  const values: { lo: number; hi: number; n: number; series: string }[] = [];
+  for (const s of series) {
+    for (let i = 0; i < s.counts.length && i + 1 < edges.length; i++) values.push({ lo: r6(edges[i]), hi: r6(edges[i + 1]), n: s.counts[i], series: s.name });
+  }
+  const multi = series.length > 1;
+  const x = { field: 'lo', type: 'quantitative', scale: { domain: [r6(edges[0] ?? 0), r6(edges[edges.length - 1] ?? 1)], nice: false, zero: false }, axis: { title: opts.xTitle, grid: false } };
+  const layers: Record<string, unknown>[] = [
+    {
+      data: { values },
+      mark: { type: 'rect', opacity: multi ? 0.55 : 0.85, stroke: COLOURS.paper, strokeWidth: 0.5, ...(multi ? {} : { color: COLOURS.blue }) },
+      encoding: {
+        x,
+        x2: { field: 'hi' },
+        y: { field: 'n', type: 'quantitative', stack: null, scale: opts.logY ? { type: 'symlog' } : {}, axis: { title: opts.yTitle ?? 'Number of objects', grid: true, tickCount: 5 } },
+        ...(multi
+          ? { color: { field: 'series', type: 'nominal', scale: { domain: series.map((s) => s.name), range: series.map((_, i) => SERIES[i % SERIES.length]) }, legend: { title: null, orient: 'top-right' } } }
+          : {}),
+      },
+    },
+  ];
+  for (const r of opts.rules ?? []) {
+    layers.push({ data: { values: [{ lo: r.x, label: r.label }] }, mark: { type: 'rule', color: COLOURS.vermillion, strokeDash: [4, 3], strokeWidth: 1.5 }, encoding: { x: { ...x, axis: null } } });
+    layers.push({ data: { values: [{ lo: r.x, label: r.label }] }, mark: { type: 'text', color: COLOURS.vermillion, align: 'left', dx: 3, baseline: 'top', y: 2, fontSize: 10 }, encoding: { x: { ...x, axis: null }, text: { field: 'label' } } });
+  }
+  if (opts.level) {
+    layers.push({ data: { values: [{ n: opts.level.y }] }, mark: { type: 'rule', color: COLOURS.ink, strokeDash: [4, 3] }, encoding: { y: { field: 'n', type: 'quantitative' } } });
+  }
+  return {
+    $schema: SCHEMA,
+    title: { text: opts.title },
+    description: opts.description,
+    config: baseConfig(),
+    width: opts.width ?? 420,
+    height: opts.height ?? 220,
+    layer: layers,
+  } as unknown as TopLevelSpec;
+}

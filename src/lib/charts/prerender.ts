@@ -1,0 +1,161 @@
+/**
+ * Prerender every figure the pages inline, as SVG files under `<content>/figures/`
+ * (paths in `figures.ts`). Object figures are split by whole objects over worker threads
+ * (one per core by default); each file carries the hash of its spec (`data-spec-hash` on the
+ * root element), so a figure whose spec has not changed is not rendered again. Files are
+ * written whole (temporary name, then rename), and the bytes do not depend on the number of
+ * workers or on what was rendered before.
+ */
+import { existsSync } from 'node:fs';
+import { mkdir, open, readFile, rename, writeFile } from 'node:fs/promises';
+import { availableParallelism } from 'node:os';
+import { dirname, join, resolve } from 'node:path';
+import { createRequire } from 'node:module';
+import { pathToFileURL } from 'node:url';
+import { threadId, Worker } from 'node:worker_threads';
+import type { MassFunctionContent, ObjectContent, ObjectIndexEntry, QualityContent, RelationContent, SiteContent } from '../pipeline/content.ts';
+import { objectFigureJobs, siteFigureJobs, type FigureJob } from './figures.ts';
+import { renderSvg, specHash } from './render.ts';
+
+export interface PrerenderOptions {
+  /** Worker threads for the object figures (default: one per core; 1 renders in this thread). */
+  workers?: number;
+  /** Re-render even when the spec hash matches. */
+  force?: boolean;
+  /** Thresholds drawn on the quality histograms. */
+  thresholds?: { ess?: number; pvalue?: number };
+}
+
+export interface PrerenderResult {
+  /** Figures the pages can use (rendered now or unchanged). */
+  count: number;
+  rendered: number;
+  cached: number;
+}
+
+async function readJson<T>(file: string): Promise<T | null> {
+  if (!existsSync(file)) return null;
+  return JSON.parse(await readFile(file, 'utf8')) as T;
+}
+
+async function existingHash(file: string): Promise<string | null> {
+  let fh;
+  try {
+    fh = await open(file, 'r');
+  } catch {
+    return null;
+  }
+  try {
+    const buf = Buffer.alloc(200);
+    const { bytesRead } = await fh.read(buf, 0, 200, 0);
+    const m = /^<svg data-spec-hash="([0-9a-f]+)"/.exec(buf.subarray(0, bytesRead).toString('utf8'));
+    return m ? m[1] : null;
+  } finally {
+    await fh.close();
+  }
+}
+
+/** Render the jobs whose spec changed; returns how many were rendered and how many reused. */
+export async function runFigureJobs(figuresDir: string, jobs: FigureJob[], force = false): Promise<{ rendered: number; cached: number }> {
+  let rendered = 0;
+  let cached = 0;
+  for (const job of jobs) {
+    const file = join(figuresDir, ...job.path.split('/'));
+    const hash = specHash(job.spec);
+    if (!force && (await existingHash(file)) === hash) {
+      cached++;
+      continue;
+    }
+    const svg = (await renderSvg(job.spec)).replace(/^<svg/, `<svg data-spec-hash="${hash}"`);
+    await mkdir(dirname(file), { recursive: true });
+    const tmp = `${file}.tmp-${process.pid}-${threadId}`;
+    await writeFile(tmp, svg);
+    await rename(tmp, file);
+    rendered++;
+  }
+  return { rendered, cached };
+}
+
+/** Figures of a run of objects, read one at a time from `objects/<slug>.json`. */
+export async function renderObjectFigures(contentDir: string, slugs: string[], force = false): Promise<{ rendered: number; cached: number; count: number }> {
+  const figuresDir = join(contentDir, 'figures');
+  let rendered = 0;
+  let cached = 0;
+  let count = 0;
+  for (const slug of slugs) {
+    const obj = await readJson<ObjectContent>(join(contentDir, 'objects', `${slug}.json`));
+    if (!obj) continue;
+    const jobs = objectFigureJobs(obj);
+    const r = await runFigureJobs(figuresDir, jobs, force);
+    rendered += r.rendered;
+    cached += r.cached;
+    count += jobs.length;
+  }
+  return { rendered, cached, count };
+}
+
+function workerExecArgv(): string[] {
+  const here = import.meta.url;
+  const argv = [...process.execArgv];
+  if (here.endsWith('.ts') && !argv.some((a) => a.includes('tsx'))) {
+    const tsx = createRequire(here).resolve('tsx');
+    argv.push('--import', pathToFileURL(tsx).href);
+  }
+  return argv;
+}
+
+function runWorker(contentDir: string, slugs: string[], force: boolean): Promise<{ rendered: number; cached: number; count: number }> {
+  const ext = import.meta.url.endsWith('.ts') ? '.ts' : '.js';
+  const url = new URL(`./prerender-worker${ext}`, import.meta.url);
+  return new Promise((ok, fail) => {
+    const w = new Worker(url, { workerData: { contentDir, slugs, force }, execArgv: workerExecArgv() });
+    let result: { rendered: number; cached: number; count: number } | null = null;
+    w.on('message', (m: { ok: boolean; result?: typeof result; error?: string }) => {
+      if (m.ok) result = m.result ?? null;
+      else fail(new Error(`figure worker: ${m.error}`));
+    });
+    w.on('error', fail);
+    w.on('exit', (code) => (result ? ok(result) : fail(new Error(`figure worker exited with code ${code} before finishing`))));
+  });
+}
+
+export async function prerenderFigures(contentDir: string, opts: PrerenderOptions = {}): Promise<PrerenderResult> {
+  const dir = resolve(contentDir);
+  const site = await readJson<SiteContent>(join(dir, 'site.json'));
+  if (!site) throw new Error(`prerenderFigures: ${join(dir, 'site.json')} is missing`);
+  const index = (await readJson<ObjectIndexEntry[]>(join(dir, 'objects', 'index.json'))) ?? [];
+  const relations: RelationContent[] = [];
+  for (const r of site.relations) {
+    const rel = await readJson<RelationContent>(join(dir, 'relations', `${r.name}.json`));
+    if (rel) relations.push(rel);
+  }
+  const quality = await readJson<QualityContent>(join(dir, 'quality.json'));
+  const mf = await readJson<MassFunctionContent>(join(dir, 'massfunction.json'));
+  const force = opts.force ?? false;
+
+  const siteJobs = siteFigureJobs(site, relations, quality, mf, opts.thresholds);
+  const slugs = index.map((e) => e.slug);
+  const nWorkers = Math.max(1, Math.min(opts.workers ?? availableParallelism(), Math.ceil(slugs.length / 4)));
+  let rendered = 0;
+  let cached = 0;
+  let count = siteJobs.length;
+  const parts: Promise<{ rendered: number; cached: number; count: number }>[] = [];
+  if (nWorkers <= 1) {
+    parts.push(renderObjectFigures(dir, slugs, force));
+  } else {
+    // contiguous runs of whole objects, one per worker
+    const per = Math.ceil(slugs.length / nWorkers);
+    for (let w = 0; w < nWorkers; w++) {
+      const part = slugs.slice(w * per, (w + 1) * per);
+      if (part.length) parts.push(runWorker(dir, part, force));
+    }
+  }
+  const siteDone = runFigureJobs(join(dir, 'figures'), siteJobs, force);
+  const results = await Promise.all([...parts, siteDone.then((r) => ({ ...r, count: 0 }))]);
+  for (const r of results) {
+    rendered += r.rendered;
+    cached += r.cached;
+    count += r.count;
+  }
+  return { count, rendered, cached };
+}

@@ -1,0 +1,38 @@
+/**
+ * Each object's offset from a fitted relation and its tension: the offset in units of the
+ * spread expected from the intrinsic scatter plus the object's own posterior uncertainty.
+ */
+import { PosterityError, problem } from '../problems.ts';
+import type { RelationFit } from './linear.ts';
+
+/**
+ * offset_i = y_i - (a + b (x_i - pivot)) with the fit's posterior medians of a, b, s, and
+ * tension_i = offset_i / sqrt(s^2 + Cyy_i - 2 b Cxy_i + b^2 Cxx_i), the vertical-residual
+ * variance of Hogg, Bovy & Lang (2010, arXiv:1008.4686, eq. 32 projected vertically). Under
+ * the model the tension is a standard normal deviate; |tension| > 3 marks a relation outlier.
+ */
+export function relationOffsets(
+  fit: Pick<RelationFit, 'a' | 'b' | 's' | 'pivot'>,
+  x: Float64Array,
+  y: Float64Array,
+  cxx: Float64Array,
+  cyy: Float64Array,
+  cxy: Float64Array,
+): { offset: Float64Array; tension: Float64Array } {
+  const n = x.length;
+  if (y.length !== n || cxx.length !== n || cyy.length !== n || cxy.length !== n) {
+    throw new PosterityError(problem({ message: 'relation offsets: x, y, cxx, cyy and cxy must have the same length', expected: String(n) }));
+  }
+  const a = fit.a.median;
+  const b = fit.b.median;
+  const s2 = fit.s.median * fit.s.median;
+  const offset = new Float64Array(n);
+  const tension = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const o = y[i] - (a + b * (x[i] - fit.pivot));
+    const v = s2 + cyy[i] - 2 * b * cxy[i] + b * b * cxx[i];
+    offset[i] = o;
+    tension[i] = v > 0 ? o / Math.sqrt(v) : NaN;
+  }
+  return { offset, tension };
+}

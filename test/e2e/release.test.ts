@@ -1,0 +1,135 @@
+/**
+ * End to end: a small demo bundle is generated, built into a release, and the output is
+ * checked on disk and in headless Chromium (release page, an object page, a relation page).
+ */
+import { describe, it, expect, beforeAll, afterAll } from 'vitest';
+import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { execFileSync, spawnSync } from 'node:child_process';
+import { generateDemoBundle } from '../../scripts/demo/generate.ts';
+import { buildRelease, PROJECT_ROOT } from '../../src/lib/release/build.ts';
+import { serveStatic } from '../../scripts/serve.ts';
+import { hasChromium, CHROMIUM, CHROMIUM_ARGS } from '../helpers/chromium.ts';
+import { slugOf } from '../../src/lib/core/slug.ts';
+
+const ROOT = join(PROJECT_ROOT, 'test-output', 'e2e');
+const BUNDLE = join(ROOT, 'bundle');
+const OUT = join(ROOT, 'dist');
+const N = 160;
+
+beforeAll(async () => {
+  rmSync(ROOT, { recursive: true, force: true });
+  mkdirSync(ROOT, { recursive: true });
+  await generateDemoBundle(BUNDLE, { nObjects: N });
+  await buildRelease(BUNDLE, { out: OUT });
+}, 900_000);
+
+describe('built release', () => {
+  it('has the release, catalogue, relation and one page per object', () => {
+    expect(existsSync(join(OUT, 'index.html'))).toBe(true);
+    expect(existsSync(join(OUT, 'catalogue', 'index.html'))).toBe(true);
+    const index = JSON.parse(readFileSync(join(OUT, 'downloads', 'release.json'), 'utf8'));
+    expect(index.provenance.inputs.length).toBeGreaterThan(3);
+    const objects = readdirSync(join(OUT, 'objects')).filter((d) => existsSync(join(OUT, 'objects', d, 'index.html')));
+    const csv = readFileSync(join(OUT, 'downloads', 'catalogue.csv'), 'utf8').trim().split('\n');
+    expect(objects.length).toBe(csv.length - 1);
+    expect(objects.length).toBeGreaterThan(N * 0.5);
+    const rel = readFileSync(join(OUT, 'relations', 'main_sequence', 'index.html'), 'utf8');
+    expect(rel).toContain('<svg');
+  });
+
+  it('publishes the catalogue columns of the design', () => {
+    const head = readFileSync(join(OUT, 'downloads', 'catalogue.csv'), 'utf8').split('\n')[0].split(',');
+    for (const c of ['id', 'ra', 'dec', 'redshift', 'n_samples', 'ess', 'chi2', 'chi2_pvalue', 'flags', 'population', 'log_mstar_mean', 'log_mstar_std', 'log_mstar_p025', 'log_mstar_p16', 'log_mstar_p50', 'log_mstar_p84', 'log_mstar_p975', 'main_sequence_offset', 'main_sequence_tension'])
+      expect(head).toContain(c);
+    const sums = readFileSync(join(OUT, 'downloads', 'SHA256SUMS'), 'utf8');
+    expect(sums).toMatch(/^[0-9a-f]{64} {2}catalogue\.csv$/m);
+  });
+
+  it('a malformed release.json is refused with the field named, and the output is untouched', () => {
+    const bad = join(ROOT, 'bad-bundle');
+    rmSync(bad, { recursive: true, force: true });
+    mkdirSync(bad);
+    const cfg = JSON.parse(readFileSync(join(BUNDLE, 'release.json'), 'utf8'));
+    delete cfg.title;
+    cfg.survey.areaDeg2 = 'large';
+    writeFileSync(join(bad, 'release.json'), JSON.stringify(cfg));
+    const before = readFileSync(join(OUT, 'index.html'));
+    const r = spawnSync(process.execPath, [join(PROJECT_ROOT, 'scripts', 'posterity.mjs'), 'build', bad, '--out', OUT], { encoding: 'utf8' });
+    expect(r.status).not.toBe(0);
+    expect(r.stderr).toContain('field "title"');
+    expect(r.stderr).toContain('required field is missing');
+    expect(r.stderr).toContain('field "survey.areaDeg2"');
+    expect(readFileSync(join(OUT, 'index.html')).equals(before)).toBe(true);
+    const c = spawnSync(process.execPath, [join(PROJECT_ROOT, 'scripts', 'posterity.mjs'), 'check', bad], { encoding: 'utf8' });
+    expect(c.status).toBe(1);
+  });
+});
+
+describe.runIf(hasChromium())('in headless Chromium', () => {
+  let server: Awaited<ReturnType<typeof serveStatic>>;
+  let browser: import('playwright-core').Browser;
+  beforeAll(async () => {
+    server = await serveStatic(OUT, { base: '/release/v1/' });
+    const { chromium } = await import('playwright-core');
+    browser = await chromium.launch({ executablePath: CHROMIUM, args: CHROMIUM_ARGS });
+  });
+  afterAll(async () => {
+    await browser?.close();
+    server?.server.close();
+  });
+
+  async function visit(path: string, shot: string) {
+    const page = await browser.newPage({ viewport: { width: 1280, height: 900 } });
+    const errors: string[] = [];
+    const failed: string[] = [];
+    const external: string[] = [];
+    page.on('console', (m) => {
+      if (m.type() === 'error') errors.push(m.text());
+    });
+    page.on('pageerror', (e) => errors.push(String(e)));
+    page.on('requestfailed', (r) => failed.push(r.url()));
+    page.on('request', (r) => {
+      if (!r.url().startsWith(server.url.replace(/release\/v1\/$/, ''))) external.push(r.url());
+    });
+    page.on('response', (r) => {
+      if (r.status() >= 400) failed.push(`${r.status()} ${r.url()}`);
+    });
+    await page.goto(server.url + path, { waitUntil: 'networkidle' });
+    mkdirSync(join(PROJECT_ROOT, 'test-output', 'screenshots'), { recursive: true });
+    await page.screenshot({ path: join(PROJECT_ROOT, 'test-output', 'screenshots', `${shot}.png`), fullPage: true });
+    const charts = await page.$$eval('svg', (els) => els.filter((e) => e.getBoundingClientRect().width > 100).map((e) => e.querySelectorAll('path, rect, circle, line, text').length));
+    await page.close();
+    return { errors, failed, external, charts };
+  }
+
+  it('release page loads cleanly with charts', async () => {
+    const r = await visit('', 'release');
+    expect(r.errors).toEqual([]);
+    expect(r.failed).toEqual([]);
+    expect(r.external).toEqual([]);
+    expect(r.charts.length).toBeGreaterThan(0);
+    expect(Math.min(...r.charts)).toBeGreaterThan(3);
+  });
+
+  it('an object page loads cleanly with its SED and corner plot', async () => {
+    const id = readFileSync(join(OUT, 'downloads', 'catalogue.csv'), 'utf8').split('\n')[1].split(',')[0];
+    const r = await visit(`objects/${slugOf(id)}/`, 'object');
+    expect(r.errors).toEqual([]);
+    expect(r.failed).toEqual([]);
+    expect(r.external).toEqual([]);
+    expect(r.charts.length).toBeGreaterThanOrEqual(2);
+    expect(Math.min(...r.charts)).toBeGreaterThan(3);
+  });
+
+  it('the relation page loads cleanly with its chart', async () => {
+    const r = await visit('relations/main_sequence/', 'relation');
+    expect(r.errors).toEqual([]);
+    expect(r.failed).toEqual([]);
+    expect(r.external).toEqual([]);
+    expect(r.charts.length).toBeGreaterThan(0);
+    expect(Math.min(...r.charts)).toBeGreaterThan(3);
+  });
+});
+
+void execFileSync;
