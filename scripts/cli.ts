@@ -106,7 +106,10 @@ async function cmdBuild(bundle: string, out: string, quiet: boolean, truthFile?:
         process.stderr.write(`${s.warnings.length} warning(s):\n`);
         for (const w of s.warnings.slice(0, 50)) process.stderr.write(`  warning: ${w}\n`);
       }
-      process.stdout.write(`built ${s.objects} objects into ${s.out} in ${s.seconds.toFixed(1)} s\n`);
+      const mb = (b: number) => `${(b / 1048576).toFixed(1)} MB`;
+      process.stdout.write(
+        `built ${s.objects} objects into ${s.out} in ${s.seconds.toFixed(1)} s: ${s.pages} pages, ${s.files} files, ${mb(s.bytes)} (downloads ${mb(s.downloadBytes)}), ${s.warnings.length} warning(s)\n`,
+      );
     }
     return 0;
   } catch (e) {

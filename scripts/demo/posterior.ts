@@ -113,8 +113,8 @@ export function errorScale(z: number, mag: number): number {
 
 export const SKEW = { threshold: 2.2, alpha: 4 } as const;
 
-/** Aliased second solutions in log SFR: separation minSeparation + U(0, separationRange) dex (at least 5 sigma), weight minWeight + U(0, weightRange). */
-export const MULTIMODAL = { fraction: 0.025, minSeparation: 1.2, separationRange: 0.6, minWeight: 0.25, weightRange: 0.2 } as const;
+/** Aliased second solutions in log SFR: separation minSeparation + U(0, separationRange) dex (at least 4 sigma), weight minWeight + U(0, weightRange). */
+export const MULTIMODAL = { fraction: 0.03, minSeparation: 1.2, separationRange: 0.6, minWeight: 0.25, weightRange: 0.2 } as const;
 
 export interface PosteriorModel {
   params: ParamSpec[];
@@ -152,7 +152,7 @@ export function makePosteriorModel(params: ParamSpec[], edgeWidth: number): Post
     let delta = 0;
     let w2 = 0;
     if (input.multimodal) {
-      const mag = Math.max(MULTIMODAL.minSeparation + MULTIMODAL.separationRange * rng.next(), 5 * sigma[iS]);
+      const mag = Math.max(MULTIMODAL.minSeparation + MULTIMODAL.separationRange * rng.next(), 4 * sigma[iS]);
       const ps = params[iS];
       const t = input.truth[iS];
       if (t - mag - 0.3 > ps.min && t + mag + 0.3 < ps.max) {

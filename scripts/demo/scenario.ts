@@ -61,7 +61,7 @@ export function drawHyper(rng: Rng): Hyper {
       quiescentOffset: r2(around(rng, -1.3, 0.1)),
       quiescentScatter: 0.35,
     },
-    dust: { c: r2(around(rng, 0.9, 0.05)), d: r2(around(rng, 0.5, 0.05)), scatter: r2(around(rng, 0.25, 0.02)), pivot: 10, quiescentSigma: 0.2 },
+    dust: { c: r2(around(rng, 1.2, 0.05)), d: r2(around(rng, 0.45, 0.05)), scatter: r2(around(rng, 0.25, 0.02)), pivot: 10, quiescentSigma: 0.2 },
     age: { sfLogFrac: -0.45, sfLogFracSlope: 0.15, sfLogFracScatter: 0.2, qFracMin: 0.55, qFracMax: 0.95, minAgeYr: 5e7 },
     metallicity: { z0: 0.15, slope: 0.3, dz: -0.12, scatter: 0.15 },
   };

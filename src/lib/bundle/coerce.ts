@@ -1,6 +1,7 @@
 /**
  * Typing of input columns: a reader's column becomes the kind a bundle table
- * expects, and every value that does not fit is reported with its row and column.
+ * expects, and every value that does not fit is reported with its row and column,
+ * with what was expected and what was found.
  */
 import type { Column } from '../io/table.ts';
 import type { Problem } from '../core/problems.ts';
@@ -10,21 +11,22 @@ export const MAX_PER_COLUMN = 10;
 
 export class ProblemSink {
   readonly problems: Problem[] = [];
-  private counts = new Map<string, number>();
+  private groups = new Map<string, { first: Problem; n: number }>();
+  /** Adds a problem; beyond MAX_PER_COLUMN of one kind (`key`, default file, column and message) they are only counted. */
   add(p: Problem, key?: string): void {
-    const k = key ?? `${p.file}|${p.column}|${p.message}`;
-    const n = (this.counts.get(k) ?? 0) + 1;
-    this.counts.set(k, n);
-    if (n <= MAX_PER_COLUMN) this.problems.push(p);
+    const k = key ?? `${p.severity}|${p.file}|${p.field}|${p.column}|${p.message}`;
+    const g = this.groups.get(k);
+    if (g) g.n++;
+    else this.groups.set(k, { first: p, n: 1 });
+    if ((g?.n ?? 1) <= MAX_PER_COLUMN) this.problems.push(p);
   }
-  /** Summary lines for problems beyond the listed ones. */
+  /** Every listed problem, then one summary line per kind with more than MAX_PER_COLUMN. */
   finish(): Problem[] {
     const extra: Problem[] = [];
-    for (const [k, n] of this.counts) {
+    for (const { first, n } of this.groups.values()) {
       if (n > MAX_PER_COLUMN) {
-        const [file, column, message] = k.split('|');
-        const first = this.problems.find((p) => `${p.file}|${p.column}|${p.message}` === k);
-        extra.push({ severity: first?.severity ?? 'error', file, column: column === 'undefined' ? undefined : column, message: `${message}: ${n - MAX_PER_COLUMN} more rows like this` });
+        const { row: _row, object: _object, got: _got, ...rest } = first;
+        extra.push({ ...rest, message: `${first.message}: ${n - MAX_PER_COLUMN} more like this (${n} in all)` });
       }
     }
     return [...this.problems, ...extra];
@@ -34,7 +36,7 @@ export class ProblemSink {
   }
 }
 
-interface Ctx {
+export interface Ctx {
   file: string;
   sink: ProblemSink;
   rowOffset: number;
@@ -42,7 +44,28 @@ interface Ctx {
 
 function describe(col: Column, i: number): string {
   const v = col.values[i];
-  return typeof v === 'string' ? JSON.stringify(v) : String(v);
+  return typeof v === 'string' ? JSON.stringify(v.length > 60 ? v.slice(0, 57) + '...' : v) : String(v);
+}
+
+const MISSING = new Set(['', 'nan', 'null', 'na', 'n/a']);
+
+/** Text holding several values in one cell: a list, vector or array (a wide layout). */
+export function looksLikeList(t: string): boolean {
+  if (/^[[({].*[\])}]$/s.test(t)) return true;
+  const parts = t.split(/[\s,;]+/).filter((s) => s !== '');
+  return parts.length > 1 && parts.every((s) => s !== '' && !Number.isNaN(Number(s)));
+}
+
+/** Parses one text cell as a float: empty, NaN, null and NA are missing (NaN); inf and -inf are infinities. */
+export function parseNumber(text: string): number {
+  const t = text.trim();
+  const low = t.toLowerCase();
+  if (MISSING.has(low)) return NaN;
+  if (low === 'inf' || low === '+inf' || low === 'infinity' || low === '+infinity') return Infinity;
+  if (low === '-inf' || low === '-infinity') return -Infinity;
+  // Number() accepts hex, binary and octal literals; a table cell is a decimal number
+  if (/^[+-]?0[xob]/i.test(t)) return NaN;
+  return Number(t);
 }
 
 /** Float64 values; empty text, NaN and nulls become NaN. */
@@ -52,23 +75,34 @@ export function toFloat64(col: Column, ctx: Ctx): Float64Array {
   const out = new Float64Array(n);
   if (col.kind === 'string') {
     const vals = col.values as string[];
+    let listReported = false;
     for (let i = 0; i < n; i++) {
-      const t = vals[i].trim();
-      if (t === '' || t === 'NaN' || t === 'nan' || t === 'null' || t === 'NA') {
+      const v = parseNumber(vals[i]);
+      if (Number.isNaN(v) && !MISSING.has(vals[i].trim().toLowerCase())) {
+        const t = vals[i].trim();
+        if (looksLikeList(t)) {
+          if (!listReported)
+            ctx.sink.add({
+              severity: 'error',
+              file: ctx.file,
+              row: ctx.rowOffset + i + 1,
+              column: col.name,
+              message: 'a cell holds a list of values (wide layout); store one value per cell, one posterior draw per row (long layout)',
+              expected: 'one number per cell',
+              got: describe(col, i),
+            });
+          listReported = true;
+        } else
+          ctx.sink.add({ severity: 'error', file: ctx.file, row: ctx.rowOffset + i + 1, column: col.name, message: 'not a number', expected: 'a number (empty or NaN for a missing value)', got: describe(col, i) });
         out[i] = NaN;
         continue;
-      }
-      const low = t.toLowerCase();
-      const v = low === 'inf' || low === '+inf' || low === 'infinity' ? Infinity : low === '-inf' || low === '-infinity' ? -Infinity : Number(t);
-      if (Number.isNaN(v)) {
-        ctx.sink.add({ severity: 'error', file: ctx.file, row: ctx.rowOffset + i + 1, column: col.name, message: 'not a number', got: describe(col, i) });
       }
       out[i] = v;
     }
     return out;
   }
   if (col.kind === 'bool') {
-    ctx.sink.add({ severity: 'error', file: ctx.file, column: col.name, message: 'wrong type', expected: 'a number', got: 'a boolean column' });
+    ctx.sink.add({ severity: 'error', file: ctx.file, column: col.name, message: 'wrong type', expected: 'a number column', got: 'a boolean column' });
   }
   for (let i = 0; i < n; i++) {
     const v = col.values[i];
@@ -88,19 +122,23 @@ export function toIds(col: Column, ctx: Ctx): string[] {
     else if (typeof v === 'string') s = v.trim();
     else if (typeof v === 'bigint') s = v.toString();
     else if (typeof v === 'number') {
-      if (!Number.isInteger(v) || !Number.isSafeInteger(v)) {
-        ctx.sink.add({
-          severity: 'error',
-          file: ctx.file,
-          row: ctx.rowOffset + i + 1,
-          column: col.name,
-          message: 'ids stored as floating-point numbers cannot be read exactly; store them as text or 64-bit integers',
-          got: String(v),
-        });
+      if (col.kind === 'float64' || col.kind === 'float32') {
+        // a float column cannot hold 64-bit ids exactly (2^53 + 1 reads as 2^53)
+        if (!Number.isNaN(v) && !Number.isSafeInteger(v)) {
+          ctx.sink.add({
+            severity: 'error',
+            file: ctx.file,
+            row: ctx.rowOffset + i + 1,
+            column: col.name,
+            message: 'ids stored as floating-point numbers cannot be read exactly; store them as text or 64-bit integers',
+            expected: 'a text or integer id column',
+            got: `${col.kind} value ${String(v)}`,
+          });
+        }
       }
-      s = String(v);
+      s = Number.isNaN(v) ? '' : String(v);
     } else s = String(v);
-    if (s === '') ctx.sink.add({ severity: 'error', file: ctx.file, row: ctx.rowOffset + i + 1, column: col.name, message: 'empty id' });
+    if (s === '') ctx.sink.add({ severity: 'error', file: ctx.file, row: ctx.rowOffset + i + 1, column: col.name, message: 'empty id', expected: 'a non-empty object id', got: 'an empty cell' });
     out[i] = s;
   }
   return out;
@@ -112,7 +150,7 @@ export function toStrings(col: Column): string[] {
   const out = new Array<string>(n);
   for (let i = 0; i < n; i++) {
     const v = col.values[i];
-    out[i] = col.valid && col.valid[i] === 0 ? '' : typeof v === 'string' ? v : String(v);
+    out[i] = col.valid && col.valid[i] === 0 ? '' : typeof v === 'string' ? v : col.kind === 'bool' ? (v ? 'true' : 'false') : String(v);
   }
   return out;
 }
@@ -132,6 +170,8 @@ export function toBool(col: Column, ctx: Ctx): Uint8Array {
       if (TRUE.has(t)) out[i] = 1;
       else if (!FALSE.has(t))
         ctx.sink.add({ severity: 'error', file: ctx.file, row: ctx.rowOffset + i + 1, column: col.name, message: 'not a boolean', expected: 'true/false or 1/0', got: describe(col, i) });
+    } else if (typeof v === 'number' && col.kind !== 'bool' && v !== 0 && v !== 1 && !Number.isNaN(v)) {
+      ctx.sink.add({ severity: 'error', file: ctx.file, row: ctx.rowOffset + i + 1, column: col.name, message: 'not a boolean', expected: 'true/false or 1/0', got: describe(col, i) });
     } else out[i] = typeof v === 'bigint' ? (v !== 0n ? 1 : 0) : v ? 1 : 0;
   }
   return out;
@@ -148,8 +188,86 @@ export function toInt32(col: Column, ctx: Ctx): Int32Array {
       continue;
     }
     if (!Number.isInteger(v) || Math.abs(v) > 2147483647)
-      ctx.sink.add({ severity: 'error', file: ctx.file, row: ctx.rowOffset + i + 1, column: col.name, message: 'not an integer', got: String(v) });
+      ctx.sink.add({ severity: 'error', file: ctx.file, row: ctx.rowOffset + i + 1, column: col.name, message: 'not an integer', expected: 'a whole number in the 32-bit range', got: String(v) });
     out[i] = v | 0;
   }
   return out;
+}
+
+const INT_TEXT = /^[+-]?(0|[1-9][0-9]*)$/;
+const INT64_MIN = -(1n << 63n);
+const INT64_MAX = (1n << 63n) - 1n;
+
+/**
+ * The one kind a passed-through column has whatever the input format, so a CSV bundle and
+ * the same bundle in FITS or Parquet publish the same catalogue. Text from an untyped format
+ * (CSV) is typed by its values: booleans (true/false), integers (no leading zeros, within
+ * int64), numbers; otherwise it stays text. Typed columns keep their kind, with every integer
+ * kind widened to int64 and float32 to float64 (exact).
+ */
+export function normalisePassThrough(col: Column, untyped: boolean): Column {
+  const n = col.values.length;
+  const { values: _v, valid: _m, kind: _k, ...meta } = col;
+  if (col.kind === 'string') {
+    if (!untyped) return col;
+    const vals = col.values as string[];
+    const isNull = (i: number) => (col.valid !== undefined && col.valid[i] === 0) || vals[i].trim() === '';
+    let nonEmpty = 0, allBool = true, allInt = true, allNum = true;
+    for (let i = 0; i < n; i++) {
+      if (isNull(i)) continue;
+      nonEmpty++;
+      const t = vals[i].trim();
+      const low = t.toLowerCase();
+      if (low !== 'true' && low !== 'false') allBool = false;
+      if (!INT_TEXT.test(t)) allInt = false;
+      else {
+        const b = BigInt(t);
+        if (b < INT64_MIN || b > INT64_MAX) allInt = false;
+      }
+      if (allNum && Number.isNaN(parseNumber(t)) && !MISSING.has(low)) allNum = false;
+      if (!allBool && !allInt && !allNum) return col;
+    }
+    if (nonEmpty === 0) return col;
+    const valid = new Uint8Array(n);
+    for (let i = 0; i < n; i++) valid[i] = isNull(i) ? 0 : 1;
+    const anyNull = valid.includes(0);
+    if (allBool) {
+      const out = new Uint8Array(n);
+      for (let i = 0; i < n; i++) out[i] = !isNull(i) && vals[i].trim().toLowerCase() === 'true' ? 1 : 0;
+      return { ...meta, kind: 'bool', values: out, ...(anyNull ? { valid } : {}) };
+    }
+    if (allInt) {
+      const out = new BigInt64Array(n);
+      for (let i = 0; i < n; i++) if (!isNull(i)) out[i] = BigInt(vals[i].trim());
+      return { ...meta, kind: 'int64', values: out, ...(anyNull ? { valid } : {}) };
+    }
+    const out = new Float64Array(n);
+    for (let i = 0; i < n; i++) out[i] = isNull(i) ? NaN : parseNumber(vals[i]);
+    return { ...meta, kind: 'float64', values: out };
+  }
+  switch (col.kind) {
+    case 'float32': {
+      const out = new Float64Array(n);
+      out.set(col.values as Float32Array);
+      if (col.valid) for (let i = 0; i < n; i++) if (col.valid[i] === 0) out[i] = NaN;
+      return { ...meta, kind: 'float64', values: out };
+    }
+    case 'float64': {
+      if (!col.valid) return col;
+      const out = Float64Array.from(col.values as Float64Array);
+      for (let i = 0; i < n; i++) if (col.valid[i] === 0) out[i] = NaN;
+      return { ...meta, kind: 'float64', values: out };
+    }
+    case 'int32':
+    case 'int16':
+    case 'uint8': {
+      const out = new BigInt64Array(n);
+      const src = col.values as Int32Array;
+      for (let i = 0; i < n; i++) out[i] = BigInt(src[i]);
+      return { ...meta, kind: 'int64', values: out, ...(col.valid && col.valid.includes(0) ? { valid: col.valid } : {}) };
+    }
+    default:
+      if (col.valid && !col.valid.includes(0)) return { ...meta, kind: col.kind, values: col.values };
+      return col;
+  }
 }

@@ -1,18 +1,23 @@
 /**
  * Load a bundle: release.json, then each table through its column map, typed and
  * checked. Problems are collected (not thrown one by one) so `posterity check`
- * reports everything in one run.
+ * reports everything in one run: a table that cannot be read, or a release.json that
+ * fails its schema, does not stop the checks of the other tables.
+ *
+ * Objects come out sorted by id (by UTF-16 code units, stable), whatever the row order
+ * of the input, and every per-object table is grouped in that order; within an object
+ * rows keep their file order. Problems always name the row of the file.
  */
 import { createHash } from 'node:crypto';
 import { createReadStream, existsSync, statSync } from 'node:fs';
 import { join } from 'node:path';
-import type { Column, Table } from '../io/table.ts';
-import { readTableBatches } from '../io/read.ts';
+import type { Column } from '../io/table.ts';
+import { formatOf, readTableBatches } from '../io/read.ts';
 import { PosterityError, type Problem } from '../core/problems.ts';
 import type { ParameterConfig, ReleaseConfig, TableName, TableRefConfig } from './schema.ts';
-import { readConfig } from './config.ts';
+import { CONFIG_FILE, parseConfigParts, readConfigText } from './config.ts';
 import { TABLE_COLUMNS, type ColumnSpec } from './tables.ts';
-import { ProblemSink, toBool, toFloat64, toIds, toInt32, toStrings } from './coerce.ts';
+import { ProblemSink, normalisePassThrough, toBool, toFloat64, toIds, toInt32, toStrings } from './coerce.ts';
 
 export interface ObjectsData {
   n: number;
@@ -27,9 +32,15 @@ export interface ObjectsData {
   truth: Record<string, Float64Array>;
   /** `<param>_p16/_p50/_p84` columns (objects without samples). */
   summaries: Record<string, { p16: Float64Array; p50: Float64Array; p84: Float64Array }>;
-  /** Columns passed through to the catalogue as they are. */
+  /**
+   * Columns passed through to the catalogue, in one kind whatever the input format
+   * (text from CSV typed by its values; integers as int64, floats as float64).
+   */
   extra: Column[];
+  /** Position of each id in the (sorted) arrays above. */
   index: Map<string, number>;
+  /** 0-based data row of each object in the objects file (objects are sorted by id). */
+  fileRow?: Int32Array;
 }
 
 /** Rows of a per-object table, grouped: object i owns rows order[offsets[i] .. offsets[i+1]). */
@@ -106,11 +117,11 @@ export function sampleColumnOf(p: ParameterConfig): string {
 }
 
 /** Our columns a table must/may have, parameters included. */
-export function specsFor(table: TableName, config: ReleaseConfig): ColumnSpec[] {
+export function specsFor(table: TableName, config: Pick<ReleaseConfig, 'parameters'>): ColumnSpec[] {
   const base = [...TABLE_COLUMNS[table]];
   if (table === 'samples') {
     for (const p of config.parameters)
-      base.push({ name: sampleColumnOf(p), type: 'number', required: true, description: p.description });
+      base.push({ name: sampleColumnOf(p), type: 'number', required: true, description: `${p.description} (parameter ${p.name})` });
   }
   return base;
 }
@@ -121,42 +132,72 @@ interface Loaded {
   headers: string[];
 }
 
-/** Read a table and keep only the columns named, mapped to our names. */
+const rowsWord = (n: number) => `${n} row${n === 1 ? '' : 's'}`;
+
+/**
+ * Read a table and keep the columns `wanted` (by our name), mapped to our names. With
+ * `warnUnknown`, every other column of the file is reported as a warning.
+ */
 async function loadColumns(
   dir: string,
+  table: TableName,
   ref: TableRefConfig,
   wanted: (ours: string) => boolean,
+  warnUnknown: boolean,
   sink: ProblemSink,
 ): Promise<Loaded | null> {
   const path = join(dir, ref.path);
   if (!existsSync(path)) {
-    sink.add({ severity: 'error', file: ref.path, message: 'file not found' });
+    sink.add({ severity: 'error', file: ref.path, field: `tables.${table}.path`, message: 'table file not found', expected: `a file ${ref.path} in the bundle folder`, got: 'no such file' });
+    return null;
+  }
+  if (statSync(path).isDirectory()) {
+    sink.add({ severity: 'error', file: ref.path, field: `tables.${table}.path`, message: 'the table path is a folder', expected: 'a table file', got: 'a folder' });
     return null;
   }
   const theirsToOurs = new Map<string, string>();
   for (const [ours, theirs] of Object.entries(ref.columns)) theirsToOurs.set(theirs, ours);
+  const mappedOurs = new Set(Object.keys(ref.columns));
   const cols = new Map<string, Column[]>();
   let numRows = 0;
-  let headers: string[] = [];
+  let headers: string[] | null = null;
   try {
     for await (const batch of readTableBatches(path, { file: ref.path, hdu: ref.hdu })) {
-      if (numRows === 0) headers = batch.columns.map((c) => c.name);
+      if (headers === null) {
+        headers = batch.columns.map((c) => c.name);
+        const seen = new Set<string>();
+        for (const h of headers) {
+          if (seen.has(h)) sink.add({ severity: 'error', file: ref.path, column: h, message: 'two columns have this name', expected: 'unique column names', got: `columns ${headers.join(', ')}` });
+          seen.add(h);
+        }
+        for (const h of seen) {
+          const ours = theirsToOurs.get(h) ?? (mappedOurs.has(h) ? null : h);
+          if (ours === null) {
+            if (warnUnknown || table === 'objects')
+              sink.add({ severity: 'warning', file: ref.path, column: h, message: `column not used: release.json maps our "${h}" to the column "${ref.columns[h]}"`, expected: `tables.${table}.columns.${h} to name the column to read`, got: `a column "${h}" as well` });
+          } else if (!wanted(ours) && warnUnknown)
+            sink.add({ severity: 'warning', file: ref.path, column: h, message: `unknown column, not used`, expected: `one of the ${table} columns`, got: JSON.stringify(h) });
+        }
+      }
+      const taken = new Set<string>();
       for (const c of batch.columns) {
-        const ours = theirsToOurs.get(c.name) ?? (ref.columns[c.name] === undefined ? c.name : null);
-        if (ours === null || !wanted(ours)) continue;
+        const ours = theirsToOurs.get(c.name) ?? (mappedOurs.has(c.name) ? null : c.name);
+        if (ours === null || !wanted(ours) || taken.has(ours)) continue;
+        taken.add(ours);
         if (!cols.has(ours)) cols.set(ours, []);
-        cols.get(ours)!.push({ ...c, name: c.name });
+        cols.get(ours)!.push(c);
       }
       numRows += batch.numRows;
     }
   } catch (e) {
     if (e instanceof PosterityError) {
-      for (const p of e.problems) sink.add(p);
-      return null;
+      for (const p of e.problems) sink.add({ ...p, file: p.file ?? ref.path });
+    } else {
+      sink.add({ severity: 'error', file: ref.path, message: 'cannot read the table (truncated or corrupt file?)', expected: `a readable ${formatOf(ref.path) ?? 'table'} file`, got: (e as Error).message });
     }
-    throw e;
+    return null;
   }
-  return { cols, numRows, headers };
+  return { cols, numRows, headers: headers ?? [] };
 }
 
 type Coerced = Float64Array | Int32Array | Uint8Array | string[];
@@ -194,7 +235,17 @@ function concatColumn(parts: Column[]): Column {
   if (parts.length === 1) return parts[0];
   const n = parts.reduce((s, p) => s + p.values.length, 0);
   const first = parts[0];
-  if (first.kind === 'string') return { ...first, values: parts.flatMap((p) => p.values as string[]) };
+  let valid: Uint8Array | undefined;
+  if (parts.some((p) => p.valid)) {
+    valid = new Uint8Array(n).fill(1);
+    let o = 0;
+    for (const p of parts) {
+      if (p.valid) valid.set(p.valid, o);
+      o += p.values.length;
+    }
+  }
+  const { valid: _valid, ...rest } = first;
+  if (first.kind === 'string') return { ...rest, values: parts.flatMap((p) => p.values as string[]), ...(valid ? { valid } : {}) };
   const Ctor = (first.values as Float64Array).constructor as Float64ArrayConstructor;
   const values = new Ctor(n);
   let o = 0;
@@ -202,16 +253,11 @@ function concatColumn(parts: Column[]): Column {
     values.set(p.values as Float64Array, o);
     o += p.values.length;
   }
-  return { ...first, values };
+  return { ...rest, values, ...(valid ? { valid } : {}) };
 }
 
 /** Take the typed columns of a table, reporting missing required ones. */
-function typed(
-  loaded: Loaded,
-  specs: ColumnSpec[],
-  ref: TableRefConfig,
-  sink: ProblemSink,
-): Map<string, Coerced> {
+function typed(loaded: Loaded, specs: ColumnSpec[], table: TableName, ref: TableRefConfig, sink: ProblemSink): Map<string, Coerced> {
   const out = new Map<string, Coerced>();
   for (const spec of specs) {
     const parts = loaded.cols.get(spec.name);
@@ -222,9 +268,10 @@ function typed(
           severity: 'error',
           file: ref.path,
           column: theirs ?? spec.name,
-          message: theirs ? `required column is missing (mapped from our "${spec.name}")` : 'required column is missing',
-          expected: spec.description,
-          got: `columns ${loaded.headers.join(', ')}`,
+          ...(theirs ? { field: `tables.${table}.columns.${spec.name}` } : {}),
+          message: theirs ? `required column is missing (release.json maps our "${spec.name}" to "${theirs}")` : 'required column is missing',
+          expected: `a column "${theirs ?? spec.name}": ${spec.description}`,
+          got: loaded.headers.length ? `columns ${loaded.headers.join(', ')}` : 'no columns',
         });
       }
       continue;
@@ -235,14 +282,15 @@ function typed(
 }
 
 /** Group rows by object: ids of unknown objects are reported. Stable within each object. */
-function groupByObject(ids: string[], index: Map<string, number>, nObjects: number, file: string, column: string, sink: ProblemSink): Grouping {
+function groupByObject(ids: string[], index: Map<string, number> | null, nObjects: number, file: string, column: string, sink: ProblemSink): Grouping {
   const n = ids.length;
   const obj = new Int32Array(n);
   const counts = new Int32Array(nObjects + 1);
   for (let i = 0; i < n; i++) {
-    const k = index.get(ids[i]);
+    const k = index ? index.get(ids[i]) : undefined;
     if (k === undefined) {
-      sink.add({ severity: 'error', file, row: i + 1, column, message: 'id not in the objects table', got: JSON.stringify(ids[i]) }, `${file}|unknown-id`);
+      if (index && ids[i] !== '')
+        sink.add({ severity: 'error', file, row: i + 1, column, message: 'id not in the objects table', expected: 'the id of a row of the objects table', got: JSON.stringify(ids[i]) });
       obj[i] = -1;
       continue;
     }
@@ -257,18 +305,27 @@ function groupByObject(ids: string[], index: Map<string, number>, nObjects: numb
   return { order, offsets };
 }
 
-function rangeCheck(
-  v: Float64Array,
-  ok: (x: number) => boolean,
-  file: string,
-  column: string,
-  message: string,
-  sink: ProblemSink,
-  severity: 'error' | 'warning' = 'error',
-): void {
-  for (let i = 0; i < v.length; i++)
-    if (!ok(v[i])) sink.add({ severity, file, row: i + 1, column, message, got: String(v[i]) });
+interface Rule {
+  /** Returns the problem message for a bad value, or null when the value is fine. */
+  check: (x: number, row: number) => string | null;
+  expected: string;
+  severity?: 'error' | 'warning';
 }
+
+function rangeCheck(v: Float64Array, rule: Rule, file: string, column: string, sink: ProblemSink): void {
+  for (let i = 0; i < v.length; i++) {
+    const m = rule.check(v[i], i);
+    if (m !== null) sink.add({ severity: rule.severity ?? 'error', file, row: i + 1, column, message: m, expected: rule.expected, got: String(v[i]) });
+  }
+}
+
+/** A finite value, with a message per kind of bad value. */
+const finiteMsg = (what: string) => (x: number) => (Number.isNaN(x) ? `${what} is missing or NaN` : !Number.isFinite(x) ? `${what} is infinite` : null);
+
+const positiveWavelength: Rule = {
+  check: (x) => (Number.isNaN(x) ? 'wavelength is missing or NaN' : !Number.isFinite(x) ? 'wavelength is infinite' : x <= 0 ? 'wavelength is not positive' : null),
+  expected: 'a finite wavelength > 0',
+};
 
 async function sha256(path: string): Promise<string> {
   const h = createHash('sha256');
@@ -278,144 +335,195 @@ async function sha256(path: string): Promise<string> {
 
 const theirName = (ref: TableRefConfig, ours: string) => ref.columns[ours] ?? ours;
 
-/** Load and check everything; returns the bundle or throws with every error found. */
+/** Column-map entries naming a column we do not know (for a per-object table). */
+function checkColumnMap(table: TableName, ref: TableRefConfig, specs: ColumnSpec[], sink: ProblemSink): void {
+  const known = new Set(specs.map((s) => s.name));
+  const byTheirs = new Map<string, string>();
+  for (const [ours, theirs] of Object.entries(ref.columns)) {
+    if (table !== 'objects' && !known.has(ours))
+      sink.add({ severity: 'warning', file: CONFIG_FILE, field: `tables.${table}.columns.${ours}`, message: 'the column map names a column we do not know; it is ignored', expected: `one of ${[...known].join(', ')}`, got: JSON.stringify(ours) });
+    const other = byTheirs.get(theirs);
+    if (other !== undefined)
+      sink.add({ severity: 'error', file: CONFIG_FILE, field: `tables.${table}.columns.${ours}`, message: `two of our columns are mapped to the same column (also "${other}")`, expected: 'a different column for each', got: JSON.stringify(theirs) });
+    else byTheirs.set(theirs, ours);
+  }
+}
+
+/** Reorders an array by `perm` (out[k] = a[perm[k]]). */
+function permute<T extends Float64Array | Int32Array | Uint8Array | BigInt64Array | Float32Array | Int16Array>(a: T, perm: Int32Array): T;
+function permute(a: string[], perm: Int32Array): string[];
+function permute(a: ArrayLike<unknown> & { length: number }, perm: Int32Array): unknown {
+  if (Array.isArray(a)) return Array.from(perm, (i) => a[i]);
+  const Ctor = (a as Float64Array).constructor as Float64ArrayConstructor;
+  const out = new Ctor(perm.length);
+  for (let k = 0; k < perm.length; k++) out[k] = (a as Float64Array)[perm[k]];
+  return out;
+}
+
+function permuteColumn(c: Column, perm: Int32Array): Column {
+  return { ...c, values: permute(c.values as Float64Array, perm), ...(c.valid ? { valid: permute(c.valid, perm) } : {}) };
+}
+
+/** Load and check everything; returns the bundle or throws with every problem found. */
 export async function loadBundle(dir: string, opts: { samples?: boolean } = {}): Promise<Bundle> {
-  const { config, warnings, text } = await readConfig(dir);
   const sink = new ProblemSink();
-  for (const w of warnings) sink.add(w);
-  const t = config.tables;
+  const { text, problem } = await readConfigText(dir);
+  if (text === undefined) throw new PosterityError(problem!);
+  const parts = parseConfigParts(text);
+  for (const p of parts.problems) sink.add(p);
+  if (!parts.tables) throw new PosterityError(sink.finish());
+  const t = parts.tables;
+  const parameters = parts.parameters ?? [];
+  const shape = { parameters };
 
   // objects
   const objRef = t.objects;
-  const paramNames = config.parameters.map((p) => p.name);
+  const paramNames = parameters.map((p) => p.name);
   const objSpecs: ColumnSpec[] = [...TABLE_COLUMNS.objects];
   for (const p of paramNames) {
     objSpecs.push({ name: `${p}_true`, type: 'number', required: false, description: `true ${p} (mock)` });
     for (const q of ['p16', 'p50', 'p84']) objSpecs.push({ name: `${p}_${q}`, type: 'number', required: false, description: `${p} ${q}` });
   }
-  const objLoaded = await loadColumns(dir, objRef, () => true, sink);
-  if (!objLoaded) throw new PosterityError(sink.finish());
-  const oc = typed(objLoaded, objSpecs, objRef, sink);
-  const id = (oc.get('id') as string[]) ?? [];
-  const n = objLoaded.numRows;
-  const index = new Map<string, number>();
-  id.forEach((s, i) => {
-    if (index.has(s)) sink.add({ severity: 'error', file: objRef.path, row: i + 1, column: theirName(objRef, 'id'), message: 'duplicate object id', got: JSON.stringify(s) });
-    else index.set(s, i);
-  });
-  const f64 = (k: string) => (oc.get(k) as Float64Array | undefined) ?? null;
-  const ra = f64('ra') ?? new Float64Array(n);
-  const dec = f64('dec') ?? new Float64Array(n);
-  const redshift = f64('redshift') ?? new Float64Array(n);
-  rangeCheck(ra, (x) => x >= 0 && x < 360, objRef.path, theirName(objRef, 'ra'), 'right ascension out of range [0, 360) degrees', sink);
-  rangeCheck(dec, (x) => x >= -90 && x <= 90, objRef.path, theirName(objRef, 'dec'), 'declination out of range [-90, 90] degrees', sink);
-  rangeCheck(redshift, (x) => Number.isFinite(x) && x >= 0, objRef.path, theirName(objRef, 'redshift'), 'redshift must be finite and not negative', sink);
-  const truth: ObjectsData['truth'] = {};
-  const summaries: ObjectsData['summaries'] = {};
-  for (const p of paramNames) {
-    const tv = f64(`${p}_true`);
-    if (tv) truth[p] = tv;
-    const p16 = f64(`${p}_p16`), p50 = f64(`${p}_p50`), p84 = f64(`${p}_p84`);
-    if (p16 && p50 && p84) summaries[p] = { p16, p50, p84 };
-  }
-  const known = new Set(objSpecs.map((s) => s.name));
-  const extra: Column[] = [];
-  for (const [ours, parts] of objLoaded.cols) if (!known.has(ours)) extra.push({ ...concatColumn(parts), name: ours });
-  const objects: ObjectsData = {
-    n,
-    id,
-    ra,
-    dec,
-    redshift,
-    chi2: f64('chi2'),
-    nBands: (oc.get('n_bands') as Int32Array | undefined) ?? null,
-    mag: f64('mag'),
-    truth,
-    summaries,
-    extra,
-    index,
-  };
+  checkColumnMap('objects', objRef, objSpecs, sink);
+  const objLoaded = await loadColumns(dir, 'objects', objRef, () => true, false, sink);
+  const untypedObjects = formatOf(objRef.path) === 'csv';
+  let objects: ObjectsData | null = null;
+  if (objLoaded) objects = objectsFrom(objLoaded, objSpecs, objRef, paramNames, untypedObjects, sink);
+  const index = objects?.index ?? null;
+  const n = objects?.n ?? 0;
+  const idAt = (k: number) => objects!.id[k];
+  const objRow = (k: number) => (objects!.fileRow ? objects!.fileRow[k] : k) + 1;
 
   // samples
   let samples: SamplesData | null = null;
   if (t.samples && opts.samples !== false) {
     const ref = t.samples;
-    const specs = specsFor('samples', config);
+    const specs = specsFor('samples', shape);
+    checkColumnMap('samples', ref, specs, sink);
     const wanted = new Set(specs.map((s) => s.name));
-    const loaded = await loadColumns(dir, ref, (c) => wanted.has(c), sink);
+    const loaded = await loadColumns(dir, 'samples', ref, (c) => wanted.has(c), true, sink);
     if (loaded) {
-      for (const h of loaded.headers) {
-        const ours = Object.entries(ref.columns).find(([, th]) => th === h)?.[0] ?? h;
-        if (!wanted.has(ours))
-          sink.add({ severity: 'warning', file: ref.path, column: h, message: 'column not used (not a declared parameter or a known samples column)' });
-      }
-      const sc = typed(loaded, specs, ref, sink);
+      const sc = typed(loaded, specs, 'samples', ref, sink);
       const sid = (sc.get('id') as string[]) ?? [];
       const grouping = groupByObject(sid, index, n, ref.path, theirName(ref, 'id'), sink);
       const weight = (sc.get('weight') as Float64Array | undefined) ?? null;
       const logWeight = (sc.get('log_weight') as Float64Array | undefined) ?? null;
       if (!weight && !logWeight)
-        sink.add({ severity: 'error', file: ref.path, column: theirName(ref, 'weight'), message: 'the samples table needs a weight or a log_weight column', got: `columns ${loaded.headers.join(', ')}` });
-      if (weight) rangeCheck(weight, (x) => Number.isFinite(x) && x >= 0, ref.path, theirName(ref, 'weight'), 'weight must be finite and not negative', sink);
-      if (logWeight) rangeCheck(logWeight, (x) => !Number.isNaN(x) && x !== Infinity, ref.path, theirName(ref, 'log_weight'), 'log_weight must be finite or -inf', sink);
-      const params = config.parameters.map((p) => (sc.get(sampleColumnOf(p)) as Float64Array | undefined) ?? new Float64Array(loaded.numRows));
-      config.parameters.forEach((p, j) =>
-        rangeCheck(params[j], Number.isFinite, ref.path, theirName(ref, sampleColumnOf(p)), 'parameter value must be finite', sink),
-      );
+        sink.add({ severity: 'error', file: ref.path, column: theirName(ref, 'weight'), message: 'the samples table needs a weight or a log_weight column', expected: `a column "${theirName(ref, 'weight')}" or "${theirName(ref, 'log_weight')}"`, got: `columns ${loaded.headers.join(', ')}` });
+      if (weight && logWeight)
+        sink.add({ severity: 'warning', file: ref.path, column: theirName(ref, 'log_weight'), message: 'both weight and log_weight are given; log_weight is not used', expected: 'one of the two', got: 'both' });
+      if (weight)
+        rangeCheck(weight, {
+          check: (x) => (Number.isNaN(x) ? 'weight is missing or NaN' : !Number.isFinite(x) ? 'weight is infinite' : x < 0 ? 'weight is negative' : null),
+          expected: 'a finite weight >= 0',
+        }, ref.path, theirName(ref, 'weight'), sink);
+      else if (logWeight)
+        rangeCheck(logWeight, {
+          check: (x) => (Number.isNaN(x) ? 'log_weight is missing or NaN' : x === Infinity ? 'log_weight is +infinity' : null),
+          expected: 'a finite number, or -inf for a zero weight',
+        }, ref.path, theirName(ref, 'log_weight'), sink);
+      const params = parameters.map((p) => (sc.get(sampleColumnOf(p)) as Float64Array | undefined) ?? new Float64Array(loaded.numRows));
+      parameters.forEach((p, j) => {
+        if (sc.has(sampleColumnOf(p))) rangeCheck(params[j], { check: finiteMsg(`value of ${p.name}`), expected: 'a finite number' }, ref.path, theirName(ref, sampleColumnOf(p)), sink);
+      });
+      const logPrior = (sc.get('log_prior') as Float64Array | undefined) ?? null;
+      if (logPrior)
+        rangeCheck(logPrior, { check: (x) => (Number.isNaN(x) ? 'log_prior is missing or NaN' : x === Infinity ? 'log_prior is +infinity' : null), expected: 'a finite log density (or -inf)' }, ref.path, theirName(ref, 'log_prior'), sink);
       samples = {
         ...grouping,
         params,
         weight,
-        logWeight,
+        logWeight: weight ? null : logWeight,
         logLike: (sc.get('log_like') as Float64Array | undefined) ?? null,
-        logPrior: (sc.get('log_prior') as Float64Array | undefined) ?? null,
+        logPrior,
         chain: (sc.get('chain') as Int32Array | undefined) ?? null,
         nRows: loaded.numRows,
       };
       // objects without draws; all-zero weights
-      for (let k = 0; k < n; k++) {
+      const w = weight ?? (logWeight ? null : undefined);
+      for (let k = 0; k < n && objects; k++) {
         const a = grouping.offsets[k], b = grouping.offsets[k + 1];
         if (a === b) {
-          if (!config.parameters.every((p) => summaries[p.name]))
-            sink.add({ severity: 'error', file: objRef.path, row: k + 1, object: id[k], message: 'object has no posterior draws in the samples table and no _p16/_p50/_p84 summaries' });
+          if (!parameters.every((p) => objects!.summaries[p.name]))
+            sink.add({
+              severity: 'error',
+              file: objRef.path,
+              row: objRow(k),
+              column: theirName(objRef, 'id'),
+              object: idAt(k),
+              message: 'object has no posterior draws',
+              expected: `rows with this id in ${ref.path} (or _p16/_p50/_p84 summary columns for every parameter)`,
+              got: 'no rows',
+            });
           continue;
         }
+        if (w === undefined) continue;
         let any = false;
         for (let r = a; r < b && !any; r++) {
           const row = grouping.order[r];
-          if (weight ? weight[row] > 0 : logWeight![row] > -Infinity) any = true;
+          if (w ? w[row] > 0 : logWeight![row] > -Infinity && !Number.isNaN(logWeight![row])) any = true;
         }
-        if (!any && (weight || logWeight))
-          sink.add({ severity: 'error', file: ref.path, row: grouping.order[a] + 1, object: id[k], column: theirName(ref, weight ? 'weight' : 'log_weight'), message: 'every draw of this object has zero weight' });
+        if (!any)
+          sink.add({
+            severity: 'error',
+            file: ref.path,
+            row: grouping.order[a] + 1,
+            object: idAt(k),
+            column: theirName(ref, weight ? 'weight' : 'log_weight'),
+            message: 'every draw of this object has zero weight',
+            expected: 'at least one draw with a weight > 0',
+            got: `${b - a} draws of weight ${weight ? '0' : '0 (log_weight -inf)'}`,
+          });
       }
     }
-  } else if (!t.samples) {
-    for (const p of config.parameters)
-      if (!summaries[p.name])
-        sink.add({ severity: 'error', file: objRef.path, column: `${p.name}_p50`, message: 'without a samples table the objects table needs _p16, _p50 and _p84 columns for every parameter' });
+  } else if (!t.samples && objects) {
+    for (const p of parameters)
+      if (!objects.summaries[p.name])
+        sink.add({
+          severity: 'error',
+          file: objRef.path,
+          column: `${p.name}_p50`,
+          message: 'without a samples table the objects table needs _p16, _p50 and _p84 columns for every parameter',
+          expected: `columns ${p.name}_p16, ${p.name}_p50, ${p.name}_p84`,
+          got: `columns ${objLoaded!.headers.join(', ')}`,
+        });
   }
 
   // photometry
   let photometry: PhotometryData | null = null;
   if (t.photometry) {
     const ref = t.photometry;
-    const specs = specsFor('photometry', config);
-    const loaded = await loadColumns(dir, ref, () => true, sink);
+    const specs = specsFor('photometry', shape);
+    checkColumnMap('photometry', ref, specs, sink);
+    const wanted = new Set(specs.map((s) => s.name));
+    const loaded = await loadColumns(dir, 'photometry', ref, (c) => wanted.has(c), true, sink);
     if (loaded) {
-      const pc = typed(loaded, specs, ref, sink);
+      const pc = typed(loaded, specs, 'photometry', ref, sink);
       const grouping = groupByObject((pc.get('id') as string[]) ?? [], index, n, ref.path, theirName(ref, 'id'), sink);
       const fluxErr = (pc.get('flux_err') as Float64Array) ?? new Float64Array(loaded.numRows);
-      rangeCheck(fluxErr, (x) => Number.isFinite(x) && x >= 0, ref.path, theirName(ref, 'flux_err'), 'flux error must be finite and not negative', sink);
+      rangeCheck(fluxErr, {
+        check: (x) => (Number.isNaN(x) ? 'flux error is missing or NaN' : !Number.isFinite(x) ? 'flux error is infinite' : x < 0 ? 'flux error is negative' : null),
+        expected: 'a finite flux error >= 0',
+      }, ref.path, theirName(ref, 'flux_err'), sink);
       const flux = (pc.get('flux') as Float64Array) ?? new Float64Array(loaded.numRows);
-      rangeCheck(flux, (x) => !Number.isNaN(x), ref.path, theirName(ref, 'flux'), 'flux is missing (negative forced fluxes are fine; leave out rows with no measurement)', sink, 'warning');
+      rangeCheck(flux, {
+        check: (x) => (Number.isNaN(x) ? 'flux is missing (negative forced fluxes are fine; leave out rows with no measurement)' : null),
+        expected: 'a measured flux',
+        severity: 'warning',
+      }, ref.path, theirName(ref, 'flux'), sink);
+      rangeCheck(flux, { check: (x) => (x === Infinity || x === -Infinity ? 'flux is infinite' : null), expected: 'a finite flux' }, ref.path, theirName(ref, 'flux'), sink);
+      const limitNsigma = (pc.get('limit_nsigma') as Float64Array | undefined) ?? null;
+      const upperLimit = (pc.get('upper_limit') as Uint8Array | undefined) ?? null;
+      if (limitNsigma && upperLimit)
+        rangeCheck(limitNsigma, { check: (x, i) => (upperLimit[i] && !(x > 0 && Number.isFinite(x)) ? 'an upper limit needs a positive limit_nsigma' : null), expected: 'a finite number > 0 where upper_limit is true', }, ref.path, theirName(ref, 'limit_nsigma'), sink);
       photometry = {
         ...grouping,
         band: (pc.get('band') as string[]) ?? [],
         flux,
         fluxErr,
         modelFlux: (pc.get('model_flux') as Float64Array | undefined) ?? null,
-        upperLimit: (pc.get('upper_limit') as Uint8Array | undefined) ?? null,
-        limitNsigma: (pc.get('limit_nsigma') as Float64Array | undefined) ?? null,
+        upperLimit,
+        limitNsigma,
       };
     }
   }
@@ -424,45 +532,65 @@ export async function loadBundle(dir: string, opts: { samples?: boolean } = {}):
   let bands: BandsData | null = null;
   if (t.bands) {
     const ref = t.bands;
-    const loaded = await loadColumns(dir, ref, () => true, sink);
+    const specs = specsFor('bands', shape);
+    checkColumnMap('bands', ref, specs, sink);
+    const wanted = new Set(specs.map((s) => s.name));
+    const loaded = await loadColumns(dir, 'bands', ref, (c) => wanted.has(c), true, sink);
     if (loaded) {
-      const bc = typed(loaded, specsFor('bands', config), ref, sink);
-      const wl = (bc.get('wavelength') as Float64Array) ?? new Float64Array(loaded.numRows);
-      rangeCheck(wl, (x) => x > 0 && Number.isFinite(x), ref.path, theirName(ref, 'wavelength'), 'wavelength must be positive', sink);
+      const bc = typed(loaded, specs, 'bands', ref, sink);
+      const wl = (bc.get('wavelength') as Float64Array) ?? new Float64Array(loaded.numRows).fill(1);
+      rangeCheck(wl, positiveWavelength, ref.path, theirName(ref, 'wavelength'), sink);
+      const width = (bc.get('width') as Float64Array | undefined) ?? null;
+      if (width) rangeCheck(width, { check: (x) => (x < 0 || x === Infinity ? 'band width is negative or infinite' : null), expected: 'a finite width >= 0 (or empty)' }, ref.path, theirName(ref, 'width'), sink);
       bands = {
         band: (bc.get('band') as string[]) ?? [],
         wavelength: wl,
         label: (bc.get('label') as string[] | undefined) ?? null,
-        width: (bc.get('width') as Float64Array | undefined) ?? null,
+        width,
       };
-      if (photometry) {
-        const names = new Set(bands.band);
+      const firstRow = new Map<string, number>();
+      bands.band.forEach((b, i) => {
+        const f = firstRow.get(b);
+        if (f !== undefined) sink.add({ severity: 'error', file: ref.path, row: i + 1, column: theirName(ref, 'band'), message: 'duplicate band name', expected: `a name not used before (first at row ${f + 1})`, got: JSON.stringify(b) });
+        else firstRow.set(b, i);
+      });
+      if (photometry && bc.has('band')) {
+        const names = bands.band;
         photometry.band.forEach((b, i) => {
-          if (!names.has(b)) sink.add({ severity: 'error', file: t.photometry!.path, row: i + 1, column: theirName(t.photometry!, 'band'), message: 'band not in the bands table', got: JSON.stringify(b) }, 'unknown-band');
+          if (!firstRow.has(b))
+            sink.add({ severity: 'error', file: t.photometry!.path, row: i + 1, column: theirName(t.photometry!, 'band'), message: 'band not in the bands table', expected: `one of ${names.slice(0, 20).map((x) => JSON.stringify(x)).join(', ')}${names.length > 20 ? ', ...' : ''}`, got: JSON.stringify(b) });
         });
       }
     }
   } else if (photometry) {
-    sink.add({ severity: 'error', file: 'release.json', field: 'tables.bands', message: 'a photometry table needs a bands table (for the pivot wavelengths)' });
+    sink.add({ severity: 'error', file: CONFIG_FILE, field: 'tables.bands', message: 'a photometry table needs a bands table (for the pivot wavelengths)', expected: 'tables.bands', got: 'no bands table' });
   }
 
   // spectra
   let spectra: SpectraData | null = null;
   if (t.spectra) {
     const ref = t.spectra;
-    const loaded = await loadColumns(dir, ref, () => true, sink);
+    const specs = specsFor('spectra', shape);
+    checkColumnMap('spectra', ref, specs, sink);
+    const wanted = new Set(specs.map((s) => s.name));
+    const loaded = await loadColumns(dir, 'spectra', ref, (c) => wanted.has(c), true, sink);
     if (loaded) {
-      const c = typed(loaded, specsFor('spectra', config), ref, sink);
-      const wl = (c.get('wavelength') as Float64Array) ?? new Float64Array(loaded.numRows);
-      rangeCheck(wl, (x) => x > 0 && Number.isFinite(x), ref.path, theirName(ref, 'wavelength'), 'wavelength must be positive', sink);
+      const c = typed(loaded, specs, 'spectra', ref, sink);
+      const wl = (c.get('wavelength') as Float64Array) ?? new Float64Array(loaded.numRows).fill(1);
+      rangeCheck(wl, positiveWavelength, ref.path, theirName(ref, 'wavelength'), sink);
+      const mask = (c.get('mask') as Uint8Array | undefined) ?? null;
       const err = (c.get('flux_err') as Float64Array) ?? new Float64Array(loaded.numRows);
-      rangeCheck(err, (x) => Number.isNaN(x) || x >= 0, ref.path, theirName(ref, 'flux_err'), 'flux error must not be negative', sink);
+      // a masked pixel is not used, so its error may be anything
+      rangeCheck(err, {
+        check: (x, i) => (mask && mask[i] ? null : Number.isNaN(x) ? 'flux error is missing or NaN (mask the pixel instead)' : !Number.isFinite(x) ? 'flux error is infinite (mask the pixel instead)' : x < 0 ? 'flux error is negative' : null),
+        expected: 'a finite flux error >= 0 (or a masked pixel)',
+      }, ref.path, theirName(ref, 'flux_err'), sink);
       spectra = {
         ...groupByObject((c.get('id') as string[]) ?? [], index, n, ref.path, theirName(ref, 'id'), sink),
         wavelength: wl,
         flux: (c.get('flux') as Float64Array) ?? new Float64Array(loaded.numRows),
         fluxErr: err,
-        mask: (c.get('mask') as Uint8Array | undefined) ?? null,
+        mask,
         modelFlux: (c.get('model_flux') as Float64Array | undefined) ?? null,
         instrument: (c.get('instrument') as string[] | undefined) ?? null,
       };
@@ -473,11 +601,14 @@ export async function loadBundle(dir: string, opts: { samples?: boolean } = {}):
   let models: ModelsData | null = null;
   if (t.models) {
     const ref = t.models;
-    const loaded = await loadColumns(dir, ref, () => true, sink);
+    const specs = specsFor('models', shape);
+    checkColumnMap('models', ref, specs, sink);
+    const wanted = new Set(specs.map((s) => s.name));
+    const loaded = await loadColumns(dir, 'models', ref, (c) => wanted.has(c), true, sink);
     if (loaded) {
-      const c = typed(loaded, specsFor('models', config), ref, sink);
-      const wl = (c.get('wavelength') as Float64Array) ?? new Float64Array(loaded.numRows);
-      rangeCheck(wl, (x) => x > 0 && Number.isFinite(x), ref.path, theirName(ref, 'wavelength'), 'wavelength must be positive', sink);
+      const c = typed(loaded, specs, 'models', ref, sink);
+      const wl = (c.get('wavelength') as Float64Array) ?? new Float64Array(loaded.numRows).fill(1);
+      rangeCheck(wl, positiveWavelength, ref.path, theirName(ref, 'wavelength'), sink);
       const frame = (c.get('frame') as string[] | undefined) ?? null;
       frame?.forEach((f, i) => {
         if (f !== '' && f !== 'observed' && f !== 'rest')
@@ -493,11 +624,12 @@ export async function loadBundle(dir: string, opts: { samples?: boolean } = {}):
   }
 
   const problems = sink.finish();
-  if (problems.some((p) => p.severity === 'error')) throw new PosterityError(problems);
+  const config = parts.config;
+  if (!config || !objects || problems.some((p) => p.severity === 'error')) throw new PosterityError(problems);
 
   const files: InputFile[] = [];
-  const cfgPath = join(dir, 'release.json');
-  files.push({ table: 'release.json', path: 'release.json', bytes: statSync(cfgPath).size, sha256: await sha256(cfgPath) });
+  const cfgPath = join(dir, CONFIG_FILE);
+  files.push({ table: 'release.json', path: CONFIG_FILE, bytes: statSync(cfgPath).size, sha256: await sha256(cfgPath) });
   for (const [name, ref] of Object.entries(t) as [TableName, TableRefConfig | undefined][]) {
     if (!ref) continue;
     const p = join(dir, ref.path);
@@ -505,4 +637,70 @@ export async function loadBundle(dir: string, opts: { samples?: boolean } = {}):
   }
 
   return { dir, config, configText: text, objects, samples, photometry, bands, spectra, models, files, warnings: problems };
+}
+
+/** Typed, checked and id-sorted objects. */
+function objectsFrom(loaded: Loaded, objSpecs: ColumnSpec[], objRef: TableRefConfig, paramNames: string[], untyped: boolean, sink: ProblemSink): ObjectsData {
+  const oc = typed(loaded, objSpecs, 'objects', objRef, sink);
+  const n = loaded.numRows;
+  if (n === 0) sink.add({ severity: 'error', file: objRef.path, message: 'the objects table has no rows', expected: 'one row per galaxy', got: '0 rows' });
+  const idRaw = (oc.get('id') as string[] | undefined) ?? Array.from({ length: n }, (_, i) => `#${i + 1}`);
+  const idCol = theirName(objRef, 'id');
+  const first = new Map<string, number>();
+  idRaw.forEach((s, i) => {
+    const f = first.get(s);
+    if (f !== undefined) {
+      if (s !== '') sink.add({ severity: 'error', file: objRef.path, row: i + 1, column: idCol, message: 'duplicate object id', expected: `an id not used before (first at row ${f + 1})`, got: JSON.stringify(s) });
+    } else first.set(s, i);
+  });
+  const f64 = (k: string) => (oc.get(k) as Float64Array | undefined) ?? null;
+  const raRaw = f64('ra') ?? new Float64Array(n);
+  const decRaw = f64('dec') ?? new Float64Array(n);
+  const zRaw = f64('redshift') ?? new Float64Array(n);
+  rangeCheck(raRaw, { check: (x) => (Number.isNaN(x) ? 'right ascension is missing or NaN' : !(x >= 0 && x < 360) ? 'right ascension out of range' : null), expected: 'degrees in [0, 360)' }, objRef.path, theirName(objRef, 'ra'), sink);
+  rangeCheck(decRaw, { check: (x) => (Number.isNaN(x) ? 'declination is missing or NaN' : !(x >= -90 && x <= 90) ? 'declination out of range' : null), expected: 'degrees in [-90, 90]' }, objRef.path, theirName(objRef, 'dec'), sink);
+  rangeCheck(zRaw, { check: (x) => (Number.isNaN(x) ? 'redshift is missing or NaN' : !Number.isFinite(x) ? 'redshift is infinite' : x < 0 ? 'redshift is negative' : null), expected: 'a finite redshift >= 0' }, objRef.path, theirName(objRef, 'redshift'), sink);
+  const chi2Raw = f64('chi2');
+  if (chi2Raw) rangeCheck(chi2Raw, { check: (x) => (x < 0 || x === Infinity ? 'chi-square is negative or infinite' : null), expected: 'a finite chi-square >= 0 (or empty)' }, objRef.path, theirName(objRef, 'chi2'), sink);
+
+  // sort by id, by UTF-16 code units; ties (duplicate ids, already errors) keep file order
+  const perm = Int32Array.from({ length: n }, (_, i) => i);
+  perm.sort((a, b) => (idRaw[a] < idRaw[b] ? -1 : idRaw[a] > idRaw[b] ? 1 : a - b));
+  const id = permute(idRaw, perm);
+  const index = new Map<string, number>();
+  id.forEach((s, k) => {
+    if (!index.has(s)) index.set(s, k);
+  });
+  const p64 = (v: Float64Array | null) => (v ? permute(v, perm) : null);
+  const truth: ObjectsData['truth'] = {};
+  const summaries: ObjectsData['summaries'] = {};
+  for (const p of paramNames) {
+    const tv = p64(f64(`${p}_true`));
+    if (tv) truth[p] = tv;
+    const p16 = p64(f64(`${p}_p16`)), p50 = p64(f64(`${p}_p50`)), p84 = p64(f64(`${p}_p84`));
+    if (p16 && p50 && p84) summaries[p] = { p16, p50, p84 };
+  }
+  const known = new Set(objSpecs.map((s) => s.name));
+  const extra: Column[] = [];
+  for (const [ours, parts] of loaded.cols) {
+    if (known.has(ours)) continue;
+    const c = normalisePassThrough({ ...concatColumn(parts), name: ours }, untyped);
+    extra.push(permuteColumn(c, perm));
+  }
+  const nBands = oc.get('n_bands') as Int32Array | undefined;
+  return {
+    n,
+    id,
+    ra: permute(raRaw, perm),
+    dec: permute(decRaw, perm),
+    redshift: permute(zRaw, perm),
+    chi2: p64(chi2Raw),
+    nBands: nBands ? permute(nBands, perm) : null,
+    mag: p64(f64('mag')),
+    truth,
+    summaries,
+    extra,
+    index,
+    fileRow: perm,
+  };
 }

@@ -10,8 +10,6 @@ import { existsSync } from 'node:fs';
 import { mkdir, open, readFile, rename, writeFile } from 'node:fs/promises';
 import { availableParallelism } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
-import { createRequire } from 'node:module';
-import { pathToFileURL } from 'node:url';
 import { threadId, Worker } from 'node:worker_threads';
 import type { MassFunctionContent, ObjectContent, ObjectIndexEntry, QualityContent, RelationContent, SiteContent } from '../pipeline/content.ts';
 import { objectFigureJobs, siteFigureJobs, type FigureJob } from './figures.ts';
@@ -94,21 +92,12 @@ export async function renderObjectFigures(contentDir: string, slugs: string[], f
   return { rendered, cached, count };
 }
 
-function workerExecArgv(): string[] {
-  const here = import.meta.url;
-  const argv = [...process.execArgv];
-  if (here.endsWith('.ts') && !argv.some((a) => a.includes('tsx'))) {
-    const tsx = createRequire(here).resolve('tsx');
-    argv.push('--import', pathToFileURL(tsx).href);
-  }
-  return argv;
-}
-
 function runWorker(contentDir: string, slugs: string[], force: boolean): Promise<{ rendered: number; cached: number; count: number }> {
   const ext = import.meta.url.endsWith('.ts') ? '.ts' : '.js';
-  const url = new URL(`./prerender-worker${ext}`, import.meta.url);
+  const module = new URL(`./prerender-worker${ext}`, import.meta.url).href;
+  const entry = new URL('./prerender-worker-entry.mjs', import.meta.url);
   return new Promise((ok, fail) => {
-    const w = new Worker(url, { workerData: { contentDir, slugs, force }, execArgv: workerExecArgv() });
+    const w = new Worker(entry, { workerData: { contentDir, slugs, force, module } });
     let result: { rendered: number; cached: number; count: number } | null = null;
     w.on('message', (m: { ok: boolean; result?: typeof result; error?: string }) => {
       if (m.ok) result = m.result ?? null;
@@ -135,7 +124,7 @@ export async function prerenderFigures(contentDir: string, opts: PrerenderOption
 
   const siteJobs = siteFigureJobs(site, relations, quality, mf, opts.thresholds);
   const slugs = index.map((e) => e.slug);
-  const nWorkers = Math.max(1, Math.min(opts.workers ?? availableParallelism(), Math.ceil(slugs.length / 4)));
+  const nWorkers = Math.max(1, Math.min(opts.workers ?? availableParallelism(), slugs.length));
   let rendered = 0;
   let cached = 0;
   let count = siteJobs.length;

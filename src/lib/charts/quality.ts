@@ -45,7 +45,7 @@ export function flagsSpec(q: QualityContent): TopLevelSpec {
       {
         mark: { type: 'bar', color: COLOURS.blue },
         encoding: {
-          y: { field: 'label', type: 'nominal', sort: null, axis: { title: null, labelLimit: 220 } },
+          y: { field: 'label', type: 'nominal', sort: null, axis: { title: null, labelLimit: 400 } },
           x: { field: 'fraction', type: 'quantitative', axis: { title: 'Fraction of objects', format: '.0%', grid: true, tickCount: 5 } },
         },
       },

@@ -27,7 +27,7 @@ export function relationSpec(rel: RelationContent, opts: RelationOptions = {}): 
   const bins: { b: BinFit; i: number }[] = rel.bins.map((b, i) => ({ b, i })).filter(({ i }) => opts.bin === undefined || i === opts.bin);
   const labels = bins.map(({ b }) => zBinLabel(b));
   const colourOf = (i: number) => SERIES[i % SERIES.length];
-  const colour = { field: 'bin', type: 'nominal', scale: { domain: labels, range: bins.map(({ i }) => colourOf(i)) }, legend: { title: 'Redshift bin', orient: 'top-left', fillColor: COLOURS.paper, padding: 4 } };
+  const colour = { field: 'bin', type: 'nominal', scale: { domain: labels, range: bins.map(({ i }) => colourOf(i)) }, legend: { title: 'Redshift bin', orient: 'bottom-right', fillColor: COLOURS.paper, padding: 4 } };
 
   const d = rel.density;
   const cells: { x: number; x2: number; y: number; y2: number; n: number }[] = [];

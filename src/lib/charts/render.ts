@@ -67,7 +67,8 @@ export function cleanSvg(svg: string, meta: { title?: string; description?: stri
   s = s.replace(/ pointer-events="none"/g, '');
   s = s.replace(GEOMETRY_ATTRS, (_m, name: string, value: string) => ` ${name}="${roundNumbers(value)}"`);
   // deterministic ids
-  const prefix = idPrefix ?? 'f' + createHash('sha256').update(s).digest('hex').slice(0, 8);
+  const idFree = s.replace(/ id="[^"]+"|url\(#[^)]+\)|xlink:href="#[^"]+"/g, '');
+  const prefix = idPrefix ?? 'f' + createHash('sha256').update(idFree).digest('hex').slice(0, 8);
   const ids = new Map<string, string>();
   s = s.replace(/ id="([^"]+)"/g, (_m, id: string) => {
     if (!ids.has(id)) ids.set(id, `${prefix}-${ids.size + 1}`);
@@ -87,9 +88,28 @@ export function cleanSvg(svg: string, meta: { title?: string; description?: stri
   return s;
 }
 
+/** Vega-Lite's compile warnings (e.g. merged legends) are not errors of the release. */
+const SILENT = {
+  level(): typeof SILENT {
+    return SILENT;
+  },
+  error(...args: unknown[]): typeof SILENT {
+    throw new Error(`vega-lite: ${args.map(String).join(' ')}`);
+  },
+  warn(): typeof SILENT {
+    return SILENT;
+  },
+  info(): typeof SILENT {
+    return SILENT;
+  },
+  debug(): typeof SILENT {
+    return SILENT;
+  },
+};
+
 /** Render a Vega-Lite spec to a deterministic SVG string. */
 export async function renderSvg(vlSpec: TopLevelSpec, opts: RenderOptions = {}): Promise<string> {
-  const vg = compile(vlSpec).spec;
+  const vg = compile(vlSpec, { logger: SILENT }).spec;
   const view = new View(parse(vg), { renderer: 'none', logLevel: 0 });
   try {
     const svg = await view.toSVG();

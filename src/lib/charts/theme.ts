@@ -78,6 +78,7 @@ export function baseConfig(): Record<string, unknown> {
       aria: false,
     },
     legend: {
+      labelLimit: 320,
       labelColor: COLOURS.ink,
       titleColor: COLOURS.ink,
       labelFontSize: 11,

@@ -76,7 +76,7 @@ export async function writeObjectDownloads(outDir: string, bundle: Bundle, i: nu
       if (samples.logPrior) cells.push(g(samples.logPrior[row]));
       text += cells.join(',') + '\n';
     }
-    await writeFile(join(dir, 'draws.csv.gz'), gzipSync(Buffer.from(text), { level: 6 }));
+    await writeFile(join(dir, 'draws.csv.gz'), gzipSync(Buffer.from(text), { level: 1 }));
   }
   if (paths.photometry && photometry) {
     let text = 'band,flux,flux_err,model_flux,upper_limit,limit_nsigma\n';

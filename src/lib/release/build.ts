@@ -27,6 +27,31 @@ export interface BuildSummary {
   out: string;
   warnings: string[];
   seconds: number;
+  pages: number;
+  files: number;
+  bytes: number;
+  downloadBytes: number;
+}
+
+/** Count pages, files and bytes of a built site. */
+async function siteStats(dir: string): Promise<Pick<BuildSummary, 'pages' | 'files' | 'bytes' | 'downloadBytes'>> {
+  const { readdir, stat } = await import('node:fs/promises');
+  let pages = 0, files = 0, bytes = 0, downloadBytes = 0;
+  const walk = async (d: string, inDownloads: boolean) => {
+    for (const e of await readdir(d, { withFileTypes: true })) {
+      const p = join(d, e.name);
+      if (e.isDirectory()) await walk(p, inDownloads || (d === dir && e.name === 'downloads'));
+      else {
+        const size = (await stat(p)).size;
+        files++;
+        bytes += size;
+        if (inDownloads) downloadBytes += size;
+        if (e.name.endsWith('.html')) pages++;
+      }
+    }
+  };
+  await walk(dir, false);
+  return { pages, files, bytes, downloadBytes };
 }
 
 const staging = new Set<string>();
@@ -98,7 +123,7 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     if (existsSync(out)) await rename(out, old);
     await rename(siteDir, out);
     await rm(old, { recursive: true, force: true });
-    return { objects: result.objects, out, warnings: result.warnings, seconds: (Date.now() - t0) / 1000 };
+    return { objects: result.objects, out, warnings: result.warnings, seconds: (Date.now() - t0) / 1000, ...(await siteStats(out)) };
   } finally {
     await rm(stage, { recursive: true, force: true });
     staging.delete(stage);

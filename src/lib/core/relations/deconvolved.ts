@@ -24,9 +24,9 @@ export interface DeconvolvedData {
 export interface DeconvolvedOptions {
   pivot: number;
   seed: number;
-  /** Default 16. */
+  /** Default 12. */
   nWalkers?: number;
-  /** Default 400; the first fifth is discarded as burn-in. */
+  /** Default 600; the first fifth is discarded as burn-in. */
   nSteps?: number;
 }
 
@@ -143,8 +143,8 @@ export function marginalPosterior(d: DeconvolvedData, pivot: number): (theta: Fl
 export function fitDeconvolved(d: DeconvolvedData, opts: DeconvolvedOptions): RelationFit {
   const n = validate(d);
   const { pivot, seed } = opts;
-  const nWalkers = opts.nWalkers ?? 16;
-  const nSteps = opts.nSteps ?? 400;
+  const nWalkers = opts.nWalkers ?? 12;
+  const nSteps = opts.nSteps ?? 600;
   const burn = Math.floor(nSteps / 5);
   const logPost = marginalPosterior(d, pivot);
   const scratch = new Float64Array(2);

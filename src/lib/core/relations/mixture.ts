@@ -1,0 +1,167 @@
+/**
+ * Two-component mixture for a sequence: a linear relation with intrinsic scatter plus a
+ * broad component, giving each galaxy a probability of belonging to the sequence instead of
+ * a hard cut (in the spirit of the outlier mixture of Hogg, Bovy & Lang 2010, sect. 5).
+ */
+import { PosterityError, problem } from '../problems.ts';
+import { deriveSeed, makeRng } from '../random.ts';
+import { chainDiagnostics, summariseChain, thinChain } from './diagnostics.ts';
+import type { DeconvolvedData } from './deconvolved.ts';
+import { sampleEnsemble } from './ensemble.ts';
+import { weightedLeastSquares } from './leastsquares.ts';
+import { MAX_BAND_DRAWS, type Estimate, type RelationFit } from './linear.ts';
+import { startAtMode } from './start.ts';
+import { convergenceWarnings } from './warnings.ts';
+
+export interface MixtureOptions {
+  pivot: number;
+  seed: number;
+  /** Default 16 (>= 12 for the 6 parameters). */
+  nWalkers?: number;
+  /** Default 400; the first fifth is burn-in. */
+  nSteps?: number;
+}
+
+export interface MixtureFit extends RelationFit {
+  /** Each galaxy's posterior probability of belonging to the sequence, averaged over posterior draws. */
+  membership: Float64Array;
+  /** The broad component: mean and sd of y, and the sequence's share of the population. */
+  broad: { mean: Estimate; sd: Estimate };
+  sequenceFraction: Estimate;
+}
+
+const HALF_LOG_2PI = 0.5 * Math.log(2 * Math.PI);
+
+/** ln of the sequence and broad-component densities of object i, without the mixing weights. */
+function componentLogs(d: DeconvolvedData, pivot: number, i: number, a: number, b: number, s2: number, mo: number, so2: number): [number, number] {
+  const vs = s2 + d.cyy[i] - 2 * b * d.cxy[i] + b * b * d.cxx[i];
+  const r = d.y[i] - a - b * (d.x[i] - pivot);
+  const vo = so2 + d.cyy[i];
+  const ro = d.y[i] - mo;
+  return [-0.5 * ((r * r) / vs + Math.log(vs)) - HALF_LOG_2PI, -0.5 * ((ro * ro) / vo + Math.log(vo)) - HALF_LOG_2PI];
+}
+
+/**
+ * Log posterior of theta = (a, b, ln s, mu_o, ln s_o, logit f). Likelihood per galaxy:
+ * f N(y; a + b (x - pivot), s^2 + Cyy - 2 b Cxy + b^2 Cxx) + (1 - f) N(y; mu_o, s_o^2 + Cyy)
+ * (sequence as in the deconvolved fit, Hogg, Bovy & Lang 2010 eq. 32 projected vertically;
+ * broad component Gaussian in y, their sect. 5 mixture). Priors: flat in a and mu_o; flat in
+ * the angle of b; flat in s and s_o with s_o > s (which labels the broad component);
+ * uniform f on (0, 1).
+ */
+function makeLogPosterior(d: DeconvolvedData, pivot: number): (t: Float64Array) => number {
+  const n = d.x.length;
+  return (t) => {
+    const a = t[0], b = t[1], lnS = t[2], mo = t[3], lnSo = t[4], lf = t[5];
+    if (!(lnS > -30 && lnSo > lnS && lnSo < 30 && Math.abs(lf) < 30) || !Number.isFinite(a) || !Number.isFinite(b) || !Number.isFinite(mo)) return -Infinity;
+    const f = 1 / (1 + Math.exp(-lf));
+    const lnF = Math.log(f);
+    const ln1F = Math.log1p(-f);
+    const s2 = Math.exp(2 * lnS);
+    const so2 = Math.exp(2 * lnSo);
+    const { x, y, cxx, cyy, cxy } = d;
+    let total = 0;
+    for (let i = 0; i < n; i++) {
+      const vs = s2 + cyy[i] - 2 * b * cxy[i] + b * b * cxx[i];
+      const r = y[i] - a - b * (x[i] - pivot);
+      const vo = so2 + cyy[i];
+      const ro = y[i] - mo;
+      const u = lnF - 0.5 * ((r * r) / vs + Math.log(vs));
+      const v = ln1F - 0.5 * ((ro * ro) / vo + Math.log(vo));
+      total += u > v ? u + Math.log1p(Math.exp(v - u)) : v + Math.log1p(Math.exp(u - v));
+    }
+    return total - n * HALF_LOG_2PI - 1.5 * Math.log1p(b * b) + lnS + lnSo + lnF + ln1F;
+  };
+}
+
+/**
+ * Fits the sequence-plus-broad-component mixture (see `makeLogPosterior`) to all galaxies'
+ * posterior means and covariances with the affine-invariant ensemble sampler (Goodman &
+ * Weare 2010), started from the Laplace approximation at the mode. `membership` is each
+ * galaxy's f p_seq / (f p_seq + (1 - f) p_broad), averaged over up to 400 posterior draws.
+ */
+export function fitMixture(d: DeconvolvedData, opts: MixtureOptions): MixtureFit {
+  const n = d.x.length;
+  if (n < 10) throw new PosterityError(problem({ message: 'the mixture fit needs at least 10 objects', expected: '>= 10', got: String(n) }));
+  for (const col of [d.y, d.cxx, d.cyy, d.cxy]) {
+    if (col.length !== n) throw new PosterityError(problem({ message: 'mixture fit: columns have different lengths', expected: String(n), got: String(col.length) }));
+  }
+  for (let i = 0; i < n; i++) {
+    if (![d.x[i], d.y[i], d.cxx[i], d.cyy[i], d.cxy[i]].every(Number.isFinite) || d.cxx[i] < 0 || d.cyy[i] < 0) {
+      throw new PosterityError(problem({ message: 'mixture fit: object has a non-finite mean or an invalid covariance', row: i + 1 }));
+    }
+  }
+  const { pivot, seed } = opts;
+  const nWalkers = opts.nWalkers ?? 16;
+  const nSteps = opts.nSteps ?? 400;
+  const burn = Math.floor(nSteps / 5);
+  const logPost = makeLogPosterior(d, pivot);
+
+  // start: least squares for the sequence, the broad component at the y mean with twice the spread
+  const ols = weightedLeastSquares(d.x, d.y, pivot);
+  let my = 0;
+  for (let i = 0; i < n; i++) my += d.y[i];
+  my /= n;
+  let vy = 0;
+  for (let i = 0; i < n; i++) vy += (d.y[i] - my) ** 2;
+  vy /= n - 1;
+  const s0 = Math.sqrt(ols.chi2 / (n - 2)) * 0.7;
+  const so0 = Math.max(Math.sqrt(vy), 2 * s0);
+  const seA = Math.sqrt(ols.varA) || 1e-3;
+  const seB = Math.sqrt(ols.varB) || 1e-3;
+  const rn = Math.sqrt(n);
+  const start = startAtMode(
+    logPost,
+    Float64Array.of(ols.a, ols.b, Math.log(s0), my, Math.log(so0), Math.log(0.7 / 0.3)),
+    Float64Array.of(2 * seA, 3 * seB, 0.3, so0 / 3, 0.3, 0.5),
+    Float64Array.of(0.1 * seA, 0.1 * seB, 0.2 / rn, (0.2 * so0) / rn, 0.2 / rn, 0.5 / rn),
+    nWalkers,
+    makeRng(deriveSeed(seed, 'mixture', 'start')),
+    { maxEval: 1200 },
+  );
+  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim: 6, nSteps, seed: deriveSeed(seed, 'mixture', 'ensemble') });
+  const m = nSteps * nWalkers;
+  const chain = new Float64Array(m * 6);
+  for (let i = 0; i < m; i++) {
+    const o = 6 * i;
+    chain[o] = run.chain[o];
+    chain[o + 1] = run.chain[o + 1];
+    chain[o + 2] = Math.exp(run.chain[o + 2]);
+    chain[o + 3] = run.chain[o + 3];
+    chain[o + 4] = Math.exp(run.chain[o + 4]);
+    chain[o + 5] = 1 / (1 + Math.exp(-run.chain[o + 5]));
+  }
+  const [a, b, s, mo, so, f] = summariseChain(chain, nSteps, nWalkers, 6, burn);
+  const diag = chainDiagnostics(chain, nSteps, nWalkers, 6, burn);
+  const warnings = convergenceWarnings(diag, run.acceptance, ['a', 'b', 's', 'broad mean', 'broad sd', 'sequence fraction']);
+
+  const thin = thinChain(chain, nSteps, nWalkers, 6, burn, MAX_BAND_DRAWS);
+  const k = thin.length / 6;
+  const draws = new Float64Array(3 * k);
+  const membership = new Float64Array(n);
+  for (let r = 0; r < k; r++) {
+    const t = thin.subarray(6 * r, 6 * r + 6);
+    draws.set(t.subarray(0, 3), 3 * r);
+    const lnF = Math.log(t[5]);
+    const ln1F = Math.log1p(-t[5]);
+    for (let i = 0; i < n; i++) {
+      const [ls, lo] = componentLogs(d, pivot, i, t[0], t[1], t[2] * t[2], t[3], t[4] * t[4]);
+      membership[i] += 1 / (1 + Math.exp(ln1F + lo - lnF - ls));
+    }
+  }
+  for (let i = 0; i < n; i++) membership[i] /= k;
+  return {
+    method: 'mixture',
+    n,
+    pivot,
+    a,
+    b,
+    s,
+    diagnostics: { ...diag, acceptance: run.acceptance, nWalkers, nSteps, burn },
+    draws,
+    warnings,
+    membership,
+    broad: { mean: mo, sd: so },
+    sequenceFraction: f,
+  };
+}
