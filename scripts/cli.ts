@@ -15,7 +15,7 @@ import { serveStatic } from './serve.ts';
 
 const USAGE = `usage:
   posterity check <bundle-folder>
-  posterity build <bundle-folder> --out <dir> [--quiet]
+  posterity build <bundle-folder> --out <dir> [--summaries <merged-dir>] [--quiet]
   posterity demo [--out dist] [--bundle demo-bundle] [--serve] [--port 4321] [--quiet]
   posterity serve <dir> [--port 4321] [--base /]`;
 
@@ -90,7 +90,7 @@ async function cmdCheck(args: Args): Promise<number> {
   }
 }
 
-async function cmdBuild(bundle: string, out: string, quiet: boolean, truthFile?: string): Promise<number> {
+async function cmdBuild(bundle: string, out: string, quiet: boolean, truthFile?: string, summaries?: string): Promise<number> {
   try {
     let truth;
     if (truthFile && existsSync(truthFile)) {
@@ -100,7 +100,7 @@ async function cmdBuild(bundle: string, out: string, quiet: boolean, truthFile?:
         Object.entries(t.relations ?? {}).map(([name, r]) => [name, r.bins.map((b) => ({ a: b.aMeanStarForming ?? b.a, b: b.b, s: b.scatter }))]),
       );
     }
-    const s = await buildRelease(resolve(bundle), { out, progress: progressPrinter(quiet), truth });
+    const s = await buildRelease(resolve(bundle), { out, progress: progressPrinter(quiet), truth, summaries });
     if (!quiet) {
       if (s.warnings.length) {
         process.stderr.write(`${s.warnings.length} warning(s):\n`);
@@ -123,6 +123,13 @@ async function cmdBuild(bundle: string, out: string, quiet: boolean, truthFile?:
   }
 }
 
+/** The cluster verbs (`summarise`, `merge`, `cluster-script`), in scripts/cluster/. */
+async function clusterVerb(cmd: 'summarise' | 'merge' | 'cluster-script', args: Args): Promise<number> {
+  const c = await import('./cluster/commands.ts');
+  const verbs = { summarise: c.cmdSummarise, merge: c.cmdMerge, 'cluster-script': c.cmdClusterScript };
+  return c.runClusterVerb(verbs[cmd], args);
+}
+
 async function serve(dir: string, port: number, base: string): Promise<number> {
   const { url } = await serveStatic(dir, { port, base });
   process.stdout.write(`serving ${dir} at ${url}  (Ctrl-C to stop)\n`);
@@ -140,11 +147,11 @@ export async function main(argv: string[]): Promise<number> {
     case 'build': {
       const dir = args.positional[1];
       const out = args.flags.out;
-      if (!dir || typeof out !== 'string') {
+      if (!dir || typeof out !== 'string' || args.flags.summaries === true) {
         process.stderr.write(USAGE + '\n');
         return 2;
       }
-      return cmdBuild(dir, out, quiet, typeof args.flags.truth === 'string' ? args.flags.truth : undefined);
+      return cmdBuild(dir, out, quiet, typeof args.flags.truth === 'string' ? args.flags.truth : undefined, typeof args.flags.summaries === 'string' ? args.flags.summaries : undefined);
     }
     case 'demo': {
       const bundle = resolve(typeof args.flags.bundle === 'string' ? args.flags.bundle : join(PROJECT_ROOT, 'demo-bundle'));
@@ -160,6 +167,10 @@ export async function main(argv: string[]): Promise<number> {
       const dir = args.positional[1] ?? join(PROJECT_ROOT, 'dist');
       return serve(dir, Number(args.flags.port ?? 4321), typeof args.flags.base === 'string' ? args.flags.base : '/');
     }
+    case 'summarise':
+    case 'merge':
+    case 'cluster-script':
+      return clusterVerb(cmd, args);
     case undefined:
     case 'help':
       process.stdout.write(USAGE + '\n');

@@ -18,10 +18,10 @@ import {
   type Hyper, type World,
 } from './scenario.ts';
 import { buildGrid, drawParents, drawTruth, type Galaxy, type ParentHistogram } from './population.ts';
-import { FLAW, SSFR_PRIOR, errorCorrelation, paramList, type ParamSpec } from './params.ts';
+import { FLAW, SSFR_PRIOR, errorCorrelation, paramList } from './params.ts';
 import { MULTIMODAL, SKEW, makePosteriorModel, type ObjectFit } from './posterior.ts';
 import { BANDS, SELECTION_BAND, abToUjy, makeSed, modelGrid, round, type SedParams } from './sed.ts';
-import { DOF_SUBTRACT, LIMIT_NSIGMA, POOR_FIT_FRACTION, SPECTRUM, observePhotometry, observeSpectrum } from './observe.ts';
+import { LIMIT_NSIGMA, SPECTRUM, observePhotometry, observeSpectrum } from './observe.ts';
 import { ArrowChunkWriter, CsvChunkWriter } from './writers.ts';
 import { COLUMN_MAPS, QUALITY, buildRelease } from './release.ts';
 
@@ -411,7 +411,7 @@ export async function generateDemoBundle(outDir: string, opts: DemoOptions = {})
       expectedSelected: Number((grid.selectedPerSr * sr).toPrecision(6)),
       histogram: hist,
     },
-    relations: relationTruth(world, galaxies, params),
+    relations: relationTruth(world, galaxies),
     interimPrior: {
       ssfrMean: SSFR_PRIOR.mean,
       ssfrSigma: SSFR_PRIOR.sigma,
@@ -459,7 +459,7 @@ function stripUndefined(c: { name: string; kind: string; values: unknown }): Col
 
 export const FORMULAS = {
   massFunction: 'phi(log M) = ln(10) phi*(z) (M/M*)^(alpha+1) exp(-M/M*) per dex, log10 phi*(z) = logPhiStar0 + dLogPhiStarDz z [Mpc^-3 dex^-1]',
-  quiescentFraction: 'f_q = 1 / (1 + exp(-(log M - (logMq0 + dLogMqDz z)) / width))',
+  quiescentFraction: 'f_q = floor + (1 - floor) / (1 + exp(-(log M - (logMq0 + dLogMqDz z)) / width))',
   massToLight: 'm_sel = DM(z) - 2.5 log10(1+z) + m10 + dMdz z - 2.5 (log M - 10) + quiescentOffset [quiescent] + N(0, scatter)',
   mainSequence: 'log SFR = a(z) + b (log M - 10) + N(0, scatter), a(z) = a0 - aT t(z), t = age of the universe [Gyr]; quiescent: + quiescentOffset + N(0, quiescentScatter)',
   dust: 'A_V = c + d (log M - 10) + N(0, scatter), truncated at 0 (star-forming); |N(0, quiescentSigma)| (quiescent)',
@@ -468,7 +468,7 @@ export const FORMULAS = {
   interimPrior: 'pi = U(box) x N(log SFR - log M; ssfrMean, ssfrSigma), normalised over the box',
 };
 
-function relationTruth(w: World, galaxies: Galaxy[], params: ParamSpec[]): DemoTruth['relations'] {
+function relationTruth(w: World, galaxies: Galaxy[]): DemoTruth['relations'] {
   const h = w.hyper;
   const ms = h.mainSequence;
   const bins = (kind: 'ms' | 'dust'): RelationBinTruth[] =>
@@ -489,7 +489,6 @@ function relationTruth(w: World, galaxies: Galaxy[], params: ParamSpec[]): DemoT
         logMassLimit: fixed(logMassAtLimit(w, zHi, false), 3),
       };
     });
-  void params;
   return {
     main_sequence: {
       pivot: ms.pivot,

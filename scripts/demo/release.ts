@@ -35,7 +35,7 @@ export const SSFR_THRESHOLD = -10.5;
 export const RELEASE_DATE = '2026-12-01';
 export const VERSION = '1.0.0';
 
-const f = (x: number, d = 2) => x.toFixed(d);
+const f = (x: number, d = 2) => (x < 0 ? `−${(-x).toFixed(d)}` : x.toFixed(d));
 const sgn = (x: number, d = 2) => (x < 0 ? `− ${(-x).toFixed(d)}` : `+ ${x.toFixed(d)}`);
 
 export function buildRelease(t: DemoTruth, params: ParamSpec[]): ReleaseConfig {
@@ -140,7 +140,7 @@ function describe(t: DemoTruth, params: ParamSpec[]): string {
   L.push(`- Every galaxy is fitted with the Chabrier (2003) IMF.`);
   L.push('', '## Population', '');
   L.push(`- **Stellar mass function** (Schechter 1976, per dex): φ(log M) = ln(10) φ*(z) (M/M*)^(α+1) exp(−M/M*), with log M* = ${f(h.smf.logMstar)}, α = ${f(h.smf.alpha)}, and log φ*(z) = ${f(h.smf.logPhiStar0)} ${sgn(h.smf.dLogPhiStarDz)} z (Mpc⁻³ dex⁻¹). Redshifts follow dV/dz times the number density.`);
-  L.push(`- **Quiescent fraction**: f_q = 1 / (1 + exp(−(log M − (${f(h.quiescentFraction.logMq0)} ${sgn(h.quiescentFraction.dLogMqDz)} z)) / ${f(h.quiescentFraction.width)})). ${t.planted.quiescent} of the ${c.objects} catalogue galaxies are quiescent (column \`population_true\`).`);
+  L.push(`- **Quiescent fraction**: f_q = ${f(h.quiescentFraction.floor)} + ${f(1 - h.quiescentFraction.floor)} / (1 + exp(−(log M − (${f(h.quiescentFraction.logMq0)} ${sgn(h.quiescentFraction.dLogMqDz)} z)) / ${f(h.quiescentFraction.width)})), the constant term standing for quenched dwarfs. ${t.planted.quiescent} of the ${c.objects} catalogue galaxies are quiescent (column \`population_true\`).`);
   L.push(`- **Mass-to-light relation** (selection magnitude): m = DM(z) − 2.5 log10(1+z) ${sgn(h.massToLight.m10)} ${sgn(h.massToLight.dMdz)} z − 2.5 (log M − 10) + ${f(h.massToLight.quiescentOffset)} [quiescent], with a Gaussian scatter of ${f(h.massToLight.scatter)} mag; DM is the distance modulus.`);
   L.push(`- **Main sequence** (star-forming): log SFR = a(z) + b (log M − 10) + N(0, s), with a(z) = ${f(ms.a0)} − ${f(ms.aT, 3)} t(z), t(z) the age of the universe in Gyr (the shape of Speagle et al. 2014, our own numbers), b = ${f(ms.b)}, s = ${f(ms.scatter)} dex.`);
   L.push(`- Quiescent galaxies sit ${f(-ms.quiescentOffset)} dex below the main sequence with a scatter of ${f(ms.quiescentScatter)} dex.`);

@@ -29,7 +29,7 @@ export const Z_BINS = [0.1, 0.5, 1.0, 1.5, 2.0, 3.0];
 
 export interface Hyper {
   smf: { logPhiStar0: number; dLogPhiStarDz: number; logMstar: number; alpha: number };
-  quiescentFraction: { logMq0: number; dLogMqDz: number; width: number };
+  quiescentFraction: { floor: number; logMq0: number; dLogMqDz: number; width: number };
   massToLight: { m10: number; dMdz: number; quiescentOffset: number; scatter: number };
   mainSequence: { a0: number; aT: number; b: number; scatter: number; pivot: number; quiescentOffset: number; quiescentScatter: number };
   dust: { c: number; d: number; scatter: number; pivot: number; quiescentSigma: number };
@@ -50,7 +50,7 @@ export function drawHyper(rng: Rng): Hyper {
       logMstar: r2(around(rng, 10.8, 0.05)),
       alpha: r2(around(rng, -1.35, 0.05)),
     },
-    quiescentFraction: { logMq0: r2(around(rng, 10.55, 0.05)), dLogMqDz: r2(around(rng, 0.3, 0.05)), width: 0.25 },
+    quiescentFraction: { floor: 0.05, logMq0: r2(around(rng, 10.45, 0.05)), dLogMqDz: r2(around(rng, 0.3, 0.05)), width: 0.25 },
     massToLight: { m10: r2(around(rng, -21.1, 0.1)), dMdz: r2(around(rng, -0.25, 0.03)), quiescentOffset: r2(around(rng, 0.7, 0.05)), scatter: 0.3 },
     mainSequence: {
       a0: r2(around(rng, 1.8, 0.05)),
@@ -97,10 +97,10 @@ export function schechterPerDex(h: Hyper, logM: number, z: number): number {
   return Math.LN10 * phiStar * Math.pow(x, h.smf.alpha + 1) * Math.exp(-x);
 }
 
-/** Quiescent fraction: a logistic step in log M whose midpoint rises with redshift. */
+/** Quiescent fraction: a floor (quenched dwarfs) plus a logistic step in log M whose midpoint rises with redshift. */
 export function quiescentFraction(h: Hyper, logM: number, z: number): number {
   const q = h.quiescentFraction;
-  return 1 / (1 + Math.exp(-(logM - (q.logMq0 + q.dLogMqDz * z)) / q.width));
+  return q.floor + (1 - q.floor) / (1 + Math.exp(-(logM - (q.logMq0 + q.dLogMqDz * z)) / q.width));
 }
 
 /**

@@ -89,7 +89,7 @@ function shapeOf(p: SedParams): Shape {
   const a = clamp01((p.logAge - 7) / 3);
   const zmet = p.metallicity ?? 0;
   const beta = -2.4 + 1.9 * a; // UV slope in f_lambda
-  const gamma = 0.3 + 1.2 * a + 0.15 * zmet; // optical slope in f_nu
+  const gamma = -0.1 + 1.8 * a * a + 0.15 * zmet; // optical slope in f_nu: flat when young, red when old
   const dBreak = 1.05 + 0.9 * Math.pow(a, 1.5) + 0.1 * zmet;
   // strength of the emission bumps rises with specific SFR
   const amp = p.logSsfr > -10.5 ? Math.min(2, 0.25 * Math.pow(10, 0.6 * (p.logSsfr + 9))) : 0;

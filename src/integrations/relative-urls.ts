@@ -5,7 +5,7 @@
  * the content folder's `downloads/` into the output. Files are visited in sorted order and
  * rewritten byte-for-byte deterministically.
  */
-import { copyFileSync, existsSync, mkdirSync, readdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
+import { copyFileSync, existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { join, relative, sep } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { AstroIntegration } from 'astro';
@@ -87,6 +87,11 @@ export default function relativeUrls(opts: RelativeUrlsOptions = {}): AstroInteg
           }
         }
         logger.info(`relative links in ${changed} files`);
+        // Astro leaves empty content-layer stubs in the output; they are not part of the site
+        for (const stub of ['content-assets.mjs', 'content-modules.mjs']) {
+          const f = join(out, stub);
+          if (existsSync(f) && readFileSync(f, 'utf8').trim() === 'export default new Map();') rmSync(f);
+        }
         if (opts.contentDir) {
           const src = join(opts.contentDir, 'downloads');
           if (existsSync(src)) logger.info(`copied ${copyTree(src, join(out, 'downloads'))} download files`);

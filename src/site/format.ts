@@ -2,7 +2,7 @@
 
 /** Decimal places that show two significant digits of `spread`. */
 export function digitsFor(spread: number): number {
-  const s = Math.abs(spread);
+  const s = Number(Math.abs(spread).toPrecision(10));
   if (!(s > 0) || !Number.isFinite(s)) return 3;
   return Math.max(0, Math.min(6, 1 - Math.floor(Math.log10(s))));
 }

@@ -99,8 +99,8 @@ describe('demo bundle', () => {
   it('renames columns through the release column maps', () => {
     const maps = release.tables;
     for (const theirs of Object.values(maps.objects.columns)) expect(column(objects, theirs)).toBeDefined();
-    expect(column(samples, maps.samples.columns.weight)).toBeDefined();
-    expect(column(photometry, maps.photometry.columns.flux)).toBeDefined();
+    expect(column(samples, maps.samples!.columns.weight)).toBeDefined();
+    expect(column(photometry, maps.photometry!.columns.flux)).toBeDefined();
     const age = release.parameters.find((p) => p.name === 'log_age')!;
     expect(age.column).toBeDefined();
     expect(column(samples, age.column!)).toBeDefined();

@@ -34,6 +34,26 @@ export class ProblemSink {
   get hasErrors(): boolean {
     return this.problems.some((p) => p.severity === 'error');
   }
+
+  /** Cells (and whole columns) whose values could not be typed: later checks skip them. */
+  private failed = new Map<string, Set<number> | 'all'>();
+  failCell(file: string, column: string, row: number): void {
+    const k = `${file}|${column}`;
+    const f = this.failed.get(k);
+    if (f === 'all') return;
+    if (f) f.add(row);
+    else this.failed.set(k, new Set([row]));
+  }
+  failColumn(file: string, column: string): void {
+    this.failed.set(`${file}|${column}`, 'all');
+  }
+  /** True when the cell (1-based row) was already reported as untypable. */
+  isFailed(file: string, column: string, row?: number): boolean {
+    const f = this.failed.get(`${file}|${column}`);
+    if (f === undefined) return false;
+    if (f === 'all') return true;
+    return row !== undefined && f.has(row);
+  }
 }
 
 export interface Ctx {
@@ -81,7 +101,8 @@ export function toFloat64(col: Column, ctx: Ctx): Float64Array {
       if (Number.isNaN(v) && !MISSING.has(vals[i].trim().toLowerCase())) {
         const t = vals[i].trim();
         if (looksLikeList(t)) {
-          if (!listReported)
+          if (!listReported) {
+            ctx.sink.failColumn(ctx.file, col.name);
             ctx.sink.add({
               severity: 'error',
               file: ctx.file,
@@ -91,9 +112,12 @@ export function toFloat64(col: Column, ctx: Ctx): Float64Array {
               expected: 'one number per cell',
               got: describe(col, i),
             });
+          }
           listReported = true;
-        } else
+        } else {
+          ctx.sink.failCell(ctx.file, col.name, ctx.rowOffset + i + 1);
           ctx.sink.add({ severity: 'error', file: ctx.file, row: ctx.rowOffset + i + 1, column: col.name, message: 'not a number', expected: 'a number (empty or NaN for a missing value)', got: describe(col, i) });
+        }
         out[i] = NaN;
         continue;
       }
@@ -102,6 +126,7 @@ export function toFloat64(col: Column, ctx: Ctx): Float64Array {
     return out;
   }
   if (col.kind === 'bool') {
+    ctx.sink.failColumn(ctx.file, col.name);
     ctx.sink.add({ severity: 'error', file: ctx.file, column: col.name, message: 'wrong type', expected: 'a number column', got: 'a boolean column' });
   }
   for (let i = 0; i < n; i++) {
@@ -187,8 +212,10 @@ export function toInt32(col: Column, ctx: Ctx): Int32Array {
       out[i] = -1;
       continue;
     }
-    if (!Number.isInteger(v) || Math.abs(v) > 2147483647)
+    if (!Number.isInteger(v) || Math.abs(v) > 2147483647) {
+      ctx.sink.failCell(ctx.file, col.name, ctx.rowOffset + i + 1);
       ctx.sink.add({ severity: 'error', file: ctx.file, row: ctx.rowOffset + i + 1, column: col.name, message: 'not an integer', expected: 'a whole number in the 32-bit range', got: String(v) });
+    }
     out[i] = v | 0;
   }
   return out;

@@ -40,6 +40,8 @@ function describeValue(v: unknown): string {
   return `${typeof v === 'string' ? 'the text' : `the ${typeof v}`} ${text}`;
 }
 
+const article = (t: string) => (/^[aeiou]/.test(t) ? `an ${t}` : `a ${t}`);
+
 /** zod issues as problems naming each field; `input` (the parsed JSON) supplies `got`. */
 export function issuesToProblems(issues: z.core.$ZodIssue[], file: string, input?: unknown, prefix: PropertyKey[] = []): Problem[] {
   return issues.map((iss): Problem => {
@@ -50,8 +52,8 @@ export function issuesToProblems(issues: z.core.$ZodIssue[], file: string, input
     const base = { severity: 'error' as const, file, field };
     switch (iss.code) {
       case 'invalid_type':
-        if (!at.found && input !== undefined) return { ...base, message: 'required field is missing', expected: iss.expected };
-        return { ...base, message: 'wrong type', expected: iss.expected, got };
+        if (!at.found && input !== undefined) return { ...base, message: 'required field is missing', expected: article(iss.expected), got: 'nothing' };
+        return { ...base, message: 'wrong type', expected: article(iss.expected), got };
       case 'invalid_value':
         return { ...base, message: 'not one of the allowed values', expected: `one of ${iss.values.map((v) => JSON.stringify(v)).join(', ')}`, got };
       case 'unrecognized_keys':

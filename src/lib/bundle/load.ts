@@ -190,10 +190,18 @@ async function loadColumns(
       numRows += batch.numRows;
     }
   } catch (e) {
+    const format = (formatOf(ref.path) ?? 'table').replace('csv', 'CSV').replace('arrow', 'Arrow IPC').replace('parquet', 'Parquet').replace('fits', 'FITS');
     if (e instanceof PosterityError) {
-      for (const p of e.problems) sink.add({ ...p, file: p.file ?? ref.path });
+      const size = statSync(path).size;
+      for (const p of e.problems)
+        sink.add({
+          ...p,
+          file: p.file ?? ref.path,
+          ...(p.expected === undefined && p.severity === 'error' ? { expected: `a complete, readable ${format} file` } : {}),
+          ...(p.got === undefined && p.severity === 'error' ? { got: `a file of ${size} bytes that cannot be read to its end` } : {}),
+        });
     } else {
-      sink.add({ severity: 'error', file: ref.path, message: 'cannot read the table (truncated or corrupt file?)', expected: `a readable ${formatOf(ref.path) ?? 'table'} file`, got: (e as Error).message });
+      sink.add({ severity: 'error', file: ref.path, message: 'cannot read the table (truncated or corrupt file?)', expected: `a complete, readable ${format} file`, got: (e as Error).message });
     }
     return null;
   }
@@ -313,7 +321,9 @@ interface Rule {
 }
 
 function rangeCheck(v: Float64Array, rule: Rule, file: string, column: string, sink: ProblemSink): void {
+  if (sink.isFailed(file, column)) return;
   for (let i = 0; i < v.length; i++) {
+    if (sink.isFailed(file, column, i + 1)) continue;
     const m = rule.check(v[i], i);
     if (m !== null) sink.add({ severity: rule.severity ?? 'error', file, row: i + 1, column, message: m, expected: rule.expected, got: String(v[i]) });
   }
@@ -444,6 +454,7 @@ export async function loadBundle(dir: string, opts: { samples?: boolean } = {}):
       for (let k = 0; k < n && objects; k++) {
         const a = grouping.offsets[k], b = grouping.offsets[k + 1];
         if (a === b) {
+          if (index!.get(idAt(k)) !== k) continue; // a duplicate id, reported already
           if (!parameters.every((p) => objects!.summaries[p.name]))
             sink.add({
               severity: 'error',
@@ -457,7 +468,7 @@ export async function loadBundle(dir: string, opts: { samples?: boolean } = {}):
             });
           continue;
         }
-        if (w === undefined) continue;
+        if (w === undefined || sink.isFailed(ref.path, theirName(ref, weight ? 'weight' : 'log_weight'))) continue;
         let any = false;
         for (let r = a; r < b && !any; r++) {
           const row = grouping.order[r];

@@ -83,7 +83,7 @@ export const Relation = z
     /** Redshift bin edges, increasing. */
     zBins: z.array(z.number().min(0)).min(2),
     pivot: z.number(),
-    methods: z.array(z.enum(['deconvolved', 'hierarchical', 'running-median', 'naive'])).default(['deconvolved', 'naive', 'running-median']),
+    methods: z.array(z.enum(['deconvolved', 'hierarchical', 'running-median', 'naive', 'mixture'])).default(['deconvolved', 'naive', 'running-median']),
     reference: ReferenceRelation.optional(),
     /** Fit only above the mass-completeness limit (when a magnitude limit is declared). */
     aboveCompleteness: z.boolean().default(true),
@@ -174,6 +174,18 @@ export const Release = z
     relations: z.array(Relation).default([]),
     populations: PopulationRule.prefault({ kind: 'ssfr' }),
     quality: Quality.prefault({}),
+    site: z
+      .object({
+        /**
+         * Above this many objects the site serves object pages from one static viewer page that
+         * loads the object's shard, instead of one page each (page count and build time stay bounded).
+         */
+        objectPageLimit: z.number().int().positive().default(50000),
+        /** Objects per shard file in viewer mode. */
+        shardSize: z.number().int().positive().default(500),
+      })
+      .strict()
+      .prefault({}),
     /** Seed for every random step (bootstrap, samplers), so builds are byte-identical. */
     seed: z.number().int().default(1),
   })

@@ -51,7 +51,7 @@ function domainOf(name: string, row: ParamRow | undefined, marg: Marginal | unde
   for (const c of contours) {
     const axis = c.x === name ? 0 : c.y === name ? 1 : -1;
     if (axis < 0) continue;
-    for (const lv of c.levels) for (const path of lv.paths) for (const pt of path) take(pt[axis]);
+    for (const lv of c.levels) for (const path of lv.paths) for (const pt of path) take(axis === 0 ? pt[0] : pt[1]);
   }
   if (row) {
     take(row.p025);

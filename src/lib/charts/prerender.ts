@@ -122,7 +122,7 @@ export async function prerenderFigures(contentDir: string, opts: PrerenderOption
   const mf = await readJson<MassFunctionContent>(join(dir, 'massfunction.json'));
   const force = opts.force ?? false;
 
-  const siteJobs = siteFigureJobs(site, relations, quality, mf, opts.thresholds);
+  const siteJobs = siteFigureJobs(site, relations, quality, mf, opts.thresholds ?? (site.quality ? { ess: site.quality.minEss, pvalue: site.quality.minChi2Pvalue } : undefined));
   const slugs = index.map((e) => e.slug);
   const nWorkers = Math.max(1, Math.min(opts.workers ?? availableParallelism(), slugs.length));
   let rendered = 0;

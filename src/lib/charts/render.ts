@@ -89,27 +89,34 @@ export function cleanSvg(svg: string, meta: { title?: string; description?: stri
 }
 
 /** Vega-Lite's compile warnings (e.g. merged legends) are not errors of the release. */
-const SILENT = {
-  level(): typeof SILENT {
+interface Logger {
+  level(): Logger;
+  error(...args: unknown[]): Logger;
+  warn(): Logger;
+  info(): Logger;
+  debug(): Logger;
+}
+const SILENT: Logger = {
+  level(): Logger {
     return SILENT;
   },
-  error(...args: unknown[]): typeof SILENT {
+  error(...args: unknown[]): Logger {
     throw new Error(`vega-lite: ${args.map(String).join(' ')}`);
   },
-  warn(): typeof SILENT {
+  warn(): Logger {
     return SILENT;
   },
-  info(): typeof SILENT {
+  info(): Logger {
     return SILENT;
   },
-  debug(): typeof SILENT {
+  debug(): Logger {
     return SILENT;
   },
 };
 
 /** Render a Vega-Lite spec to a deterministic SVG string. */
 export async function renderSvg(vlSpec: TopLevelSpec, opts: RenderOptions = {}): Promise<string> {
-  const vg = compile(vlSpec, { logger: SILENT }).spec;
+  const vg = compile(vlSpec, { logger: SILENT as never }).spec;
   const view = new View(parse(vg), { renderer: 'none', logLevel: 0 });
   try {
     const svg = await view.toSVG();

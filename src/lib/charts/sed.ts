@@ -182,12 +182,12 @@ export function sedSpec(obj: ObjectContent, opts: SedOptions): TopLevelSpec {
   if (model.length) present.add('model photometry');
   if (spec.length) present.add('spectrum');
   const domain = SERIES_DOMAIN.filter((d) => present.has(d));
-  const range = SERIES_DOMAIN.map((d, i) => (present.has(d) ? SERIES_RANGE[i] : null)).filter((c): c is string => c !== null);
+  const range = SERIES_DOMAIN.map((d, i) => (present.has(d) ? SERIES_RANGE[i] : null)).filter((c) => c !== null) as string[];
   const colour = (series: string) => ({
     datum: series,
     type: 'nominal',
     scale: { domain, range },
-    legend: { title: null, orient: 'top', direction: 'horizontal', columnPadding: 14, labelLimit: 200 },
+    legend: { title: null, orient: 'top', direction: 'horizontal', columnPadding: 14, labelLimit: 0 },
   });
 
   const layers: Record<string, unknown>[] = [];

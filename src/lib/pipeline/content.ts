@@ -5,10 +5,13 @@
  * Layout of `content/`:
  *   site.json                      SiteContent
  *   objects/index.json             ObjectIndexEntry[] (id order = catalogue order)
- *   objects/<slug>.json            ObjectContent
+ *   objects/<slug>.json            ObjectContent (static mode: one page per object)
+ *   objects/shards/<NNNNNN>.json   ObjectContent[] of objects [k*shardSize, (k+1)*shardSize) (viewer mode)
  *   relations/<name>.json          RelationContent
  *   quality.json                   QualityContent
  *   massfunction.json              MassFunctionContent
+ *   outliers.json                  OutlierEntry[] (sorted by |tension|)
+ *   downloads/                     the published downloads (copied into the site)
  *   figures/...                    prerendered SVGs (charts layer)
  */
 
@@ -111,12 +114,22 @@ export interface SiteContent {
   /** Stellar-mass histogram per population. */
   massHist: { edges: number[]; starForming: number[]; quiescent: number[] };
   tool: { name: string; version: string };
+  /**
+   * Object pages: `static` builds one page per object; above `limit` objects (`viewer`), one
+   * static viewer page loads the object's shard (`objects/shards/<NNNNNN>.json`, shard =
+   * floor(catalogue index / shardSize)) so catalogues of 10^7 objects still build.
+   */
+  objectPages: { mode: 'static' | 'viewer'; shardSize: number; limit: number };
+  /** The release's quality thresholds (drawn on the quality figures). */
+  quality: { minEss: number; minChi2Pvalue: number; priorEdgeWidth: number; priorEdgeMass: number; multimodalMinMass: number; outlierTension: number };
   warnings: string[];
 }
 
 export interface ObjectIndexEntry {
   id: string;
   slug: string;
+  /** Catalogue index (viewer mode: the shard is floor(index / shardSize)). */
+  index: number;
   ra: number;
   dec: number;
   redshift: number;

@@ -46,7 +46,9 @@ export function buildEvidence(inp: EvidenceInputs): { quality: QualityContent; m
   const n = objects.n;
 
   // ESS on log-spaced bins, p-values on linear bins
-  const essEdges = [1, 2, 5, 10, 20, 50, 100, 200, 500, 1000, 2000, 5000, 10000, 1e9];
+  let essMax = 1;
+  for (const v of summary.ess) if (Number.isFinite(v) && v > essMax) essMax = v;
+  const essEdges = [1, 2, 5, 10, 20, 50, 100, 200, 500, 1000, 2000, 5000, 10000, 20000, 50000, 100000, 200000, 500000, 1e6].filter((e, i, a) => i === 0 || a[i - 1] <= essMax);
   const pEdges = Array.from({ length: 21 }, (_, i) => i / 20);
   const flagCounts = FLAG_INFO.map((f) => {
     const count = summary.flags.reduce((s, v) => s + ((v & f.bit) !== 0 ? 1 : 0), 0);
@@ -96,7 +98,8 @@ export function buildEvidence(inp: EvidenceInputs): { quality: QualityContent; m
       const nm = nmad(d);
       const c68 = cov.find((c) => Math.abs(c.level - LEVEL_1SIGMA) < 1e-9)!;
       const flagged = calibrationFlag(c68.fraction, c68.n);
-      const k = c68.fraction > 0 && c68.fraction < 1 ? 0.994 / Math.max(1e-9, inverseCoverageFactor(c68.fraction)) : NaN;
+      // widths too small by k make the 68.27% interval cover 2 Phi(1/k) - 1
+      const k = c68.fraction > 0 && c68.fraction < 1 ? 1 / Math.max(1e-9, inverseCoverageFactor(c68.fraction)) : NaN;
       calibration.push({
         param: p.name,
         label: p.label,
@@ -110,7 +113,7 @@ export function buildEvidence(inp: EvidenceInputs): { quality: QualityContent; m
         coverage68: r4(c68.fraction),
         flagged,
         verdict: flagged
-          ? `The 68.27% intervals hold the true value for ${(c68.fraction * 100).toFixed(1)}% of objects, more than three binomial standard errors (${(3 * c68.binomialSe * 100).toFixed(1)} points) from nominal: the posterior widths look ${c68.fraction < LEVEL_1SIGMA ? `too narrow, by a factor of about ${(1 / k).toFixed(2)} if the posteriors are Gaussian` : 'too wide'}.`
+          ? `The 68.27% intervals hold the true value for ${(c68.fraction * 100).toFixed(1)}% of objects, more than three binomial standard errors (${(3 * c68.binomialSe * 100).toFixed(1)} points) from nominal: the posterior widths look ${c68.fraction < LEVEL_1SIGMA ? `too narrow, by a factor of about ${k.toFixed(2)} if the posteriors are Gaussian` : 'too wide'}.`
           : `The 68.27% intervals hold the true value for ${(c68.fraction * 100).toFixed(1)}% of objects, within three binomial standard errors of nominal.`,
       });
       void normalCdf;
@@ -185,7 +188,7 @@ export function buildEvidence(inp: EvidenceInputs): { quality: QualityContent; m
   return { quality, massfunction };
 }
 
-/** For Gaussian posteriors whose widths are too small by k, 68.27% coverage is 2 Phi(0.994/k) - 1; invert for k's reciprocal argument. */
+/** Solve 2 Phi(u) - 1 = c for u: Gaussian posteriors whose widths are too small by k = 1/u give 68.27% coverage c. */
 function inverseCoverageFactor(c: number): number {
   // solve 2 Phi(u) - 1 = c for u by bisection
   let lo = 0, hi = 10;

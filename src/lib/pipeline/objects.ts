@@ -65,6 +65,7 @@ export function objectIndexEntries(bundle: Bundle, summary: SummaryTable, popula
   return o.id.map((id, i) => ({
     id,
     slug: slugOf(id),
+    index: i,
     ra: o.ra[i],
     dec: o.dec[i],
     redshift: rn(o.redshift[i], 6),

@@ -8,10 +8,11 @@ import type { BinFit, MethodFit } from './content.ts';
 import type { RelationFit } from '../core/relations/linear.ts';
 import type { Cosmology } from '../core/cosmology.ts';
 import { fitHierarchical } from '../core/relations/hierarchical.ts';
+import { runningMedian } from '../core/relations/running.ts';
+import { referenceRelation } from '../core/relations/reference.ts';
+import { fitMixture } from '../core/relations/mixture.ts';
+import type { DeconvolvedData } from '../core/relations/deconvolved.ts';
 
-export function fitMixtureIfAvailable(_inp: PopulationInputs, _population: string[], _warnings: string[]): Float64Array | null {
-  return null;
-}
 
 /** Log interim prior of a draw from the priors declared in release.json (independent per parameter). */
 function declaredLogPrior(config: ReleaseConfig, name: string): ((v: number) => number) | null {
@@ -76,10 +77,69 @@ export function hierarchicalIfAvailable(
   return { fit: out, raw: fit };
 }
 
-export function runningIfAvailable(_pop: PopulationDraws, _idx: number[], _ix: number, _iy: number, _x: Float64Array, _seed: number): BinFit['running'] {
-  return null;
+const arr = (a: Float64Array, d = 5) => Array.from(a, (v) => (Number.isFinite(v) ? Number(v.toPrecision(d)) : NaN));
+
+/** Running median of y in 8 equal bins of x, bootstrapping objects and one posterior draw each. */
+export function runningIfAvailable(pop: PopulationDraws, idx: number[], ix: number, iy: number, x: Float64Array, seed: number): BinFit['running'] {
+  const m = pop.m;
+  let lo = Infinity, hi = -Infinity;
+  for (const v of x) {
+    lo = Math.min(lo, v);
+    hi = Math.max(hi, v);
+  }
+  if (!(hi > lo)) return null;
+  const nb = 8;
+  const edges = Float64Array.from({ length: nb + 1 }, (_, j) => lo + ((hi - lo) * j) / nb);
+  const xs = new Float64Array(idx.length * m), ys = new Float64Array(idx.length * m), w = new Float64Array(idx.length * m).fill(1);
+  const offsets = new Int32Array(idx.length + 1);
+  let o = 0;
+  idx.forEach((i, s) => {
+    for (let d = 0; d < m; d++) {
+      const xv = pop.values[ix][i * m + d], yv = pop.values[iy][i * m + d];
+      if (!Number.isFinite(xv) || !Number.isFinite(yv)) continue;
+      xs[o] = xv;
+      ys[o] = yv;
+      o++;
+    }
+    offsets[s + 1] = o;
+  });
+  const r = runningMedian({ x: xs.subarray(0, o), y: ys.subarray(0, o), w: w.subarray(0, o), offsets }, { edges, nBoot: 200, seed });
+  return { centres: arr(r.centres), median: arr(r.median), p16: arr(r.p16), p84: arr(r.p84), medianLo: arr(r.medianLo), medianHi: arr(r.medianHi), n: arr(r.n, 4) };
 }
 
-export function referenceIfAvailable(_rel: RelationConfig, _config: ReleaseConfig, _cosmo: Cosmology, _zLo: number, _zHi: number): BinFit['reference'] {
-  return null;
+/** A published relation converted to the release's IMF, drawn only inside its validity range at the bin's central redshift. */
+export function referenceIfAvailable(rel: RelationConfig, config: ReleaseConfig, cosmo: Cosmology, zLo: number, zHi: number): BinFit['reference'] {
+  if (!rel.reference) return null;
+  const ref = referenceRelation(rel.reference, config.model.imf, cosmo);
+  const z = 0.5 * (zLo + zHi);
+  if (z < ref.validity.zMin || z > ref.validity.zMax) return null;
+  const xs: number[] = [], ys: number[] = [];
+  for (let j = 0; j <= 20; j++) {
+    const x = ref.validity.xMin + ((ref.validity.xMax - ref.validity.xMin) * j) / 20;
+    xs.push(Number(x.toFixed(4)));
+    ys.push(Number(ref.evaluate(x, z).toFixed(4)));
+  }
+  return { x: xs, y: ys, label: `${ref.citation} at z = ${z.toFixed(2)} (${ref.note})` };
+}
+
+/** Two-component mixture (sequence plus a broad component) on every galaxy of the bin, without a population cut. */
+export function mixtureFit(d: DeconvolvedData, pivot: number, seed: number): { fit: MethodFit; membership: Float64Array } {
+  const f = fitMixture(d, { pivot, seed, nWalkers: 16, nSteps: stepsFor(d.x.length * 16, 3e7, 400, 1500) });
+  return {
+    fit: {
+      method: 'mixture',
+      n: f.n,
+      a: f.a,
+      b: f.b,
+      s: f.s,
+      diagnostics: {
+        ...(Object.fromEntries(Object.entries(f.diagnostics).filter(([, v]) => v !== undefined)) as Record<string, number | number[]>),
+        sequenceFraction: Number(f.sequenceFraction.median.toFixed(4)),
+        broadMean: Number(f.broad.mean.median.toFixed(4)),
+        broadSd: Number(f.broad.sd.median.toFixed(4)),
+      },
+      warnings: f.warnings,
+    },
+    membership: f.membership,
+  };
 }

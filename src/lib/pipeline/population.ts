@@ -85,12 +85,13 @@ export function runPopulation(inp: PopulationInputs): PopulationResult {
   const completenessFor = (edges: number[]) =>
     iM >= 0 && objects.mag && magLim !== undefined ? massCompleteness(summary.p50[iM], objects.mag, objects.redshift, magLim, edges) : null;
 
-  const mixture = extra.fitMixtureIfAvailable(inp, population, warnings);
+  let mixture: Float64Array | null = null;
 
   const relations: RelationContent[] = [];
   const offsets: PopulationResult['offsets'] = [];
   for (const rel of config.relations) {
     const res = fitRelation(rel, inp, population, completenessFor(rel.zBins), warnings);
+    if (res.membership) mixture = mixture ?? res.membership;
     relations.push(res.content);
     offsets.push({ name: rel.name, offset: res.offset, tension: res.tension });
     for (let i = 0; i < n; i++) if (Math.abs(res.tension[i]) > config.quality.outlierTension) summary.flags[i] |= FLAGS.RELATION_OUTLIER;
@@ -113,8 +114,9 @@ function fitRelation(
   population: string[],
   completeness: { zLo: number; zHi: number; logMLim: number }[] | null,
   warnings: string[],
-): { content: RelationContent; offset: Float64Array; tension: Float64Array } {
+): { content: RelationContent; offset: Float64Array; tension: Float64Array; membership: Float64Array | null } {
   const { config, objects, summary, pop } = inp;
+  const membership = rel.methods.includes('mixture') ? new Float64Array(objects.n).fill(NaN) : null;
   const n = objects.n;
   const k = summary.k;
   const ix = config.parameters.findIndex((p) => p.name === rel.x);
@@ -128,16 +130,18 @@ function fitRelation(
   const methodNotes: string[] = [];
   const selected: number[][] = edges.slice(1).map(() => []);
   const inBin: number[][] = edges.slice(1).map(() => []);
+  const aboveLimit: number[][] = edges.slice(1).map(() => []);
 
   for (let i = 0; i < n; i++) {
     const b = binOf(objects.redshift[i], edges);
     if (b < 0 || !Number.isFinite(xMean[i]) || !Number.isFinite(yMean[i])) continue;
     inBin[b].push(i);
-    if (rel.population !== 'all' && population[i] !== rel.population) continue;
     if (rel.aboveCompleteness && completeness && iM >= 0) {
       const lim = completeness[b]?.logMLim;
       if (Number.isFinite(lim) && summary.p50[iM][i] < lim) continue;
     }
+    aboveLimit[b].push(i);
+    if (rel.population !== 'all' && population[i] !== rel.population) continue;
     selected[b].push(i);
   }
 
@@ -177,6 +181,19 @@ function fitRelation(
       const med = { x: Float64Array.from(idx, (i) => summary.p50[ix][i]), y: Float64Array.from(idx, (i) => summary.p50[iy][i]) };
       bin.fits.push(methodFit(fitNaive(med.x, med.y, rel.pivot, seed)));
     }
+    if (membership && aboveLimit[b].length >= 10) {
+      const all = aboveLimit[b];
+      const dm = {
+        x: Float64Array.from(all, (i) => xMean[i]),
+        y: Float64Array.from(all, (i) => yMean[i]),
+        cxx: Float64Array.from(all, (i) => covAt(i, ix, ix)),
+        cyy: Float64Array.from(all, (i) => covAt(i, iy, iy)),
+        cxy: Float64Array.from(all, (i) => covAt(i, ix, iy)),
+      };
+      const mf = extra.mixtureFit(dm, rel.pivot, deriveSeed(seed, 'mixture'));
+      bin.fits.push(mf.fit);
+      all.forEach((i, j) => (membership[i] = mf.membership[j]));
+    }
     if (rel.methods.includes('running-median')) bin.running = extra.runningIfAvailable(pop, idx, ix, iy, d.x, seed);
     if (preferred) {
       const xs = new Float64Array(40);
@@ -207,6 +224,8 @@ function fitRelation(
   );
   if (rel.methods.includes('hierarchical'))
     methodNotes.push('Hierarchical: the draws of each galaxy are reweighted by the population model over the interim prior of the fit (Hogg, Myers and Bovy 2010), with a Gaussian model of the x distribution fitted jointly (in the spirit of Kelly 2007).');
+  if (membership)
+    methodNotes.push('Mixture: every galaxy above the completeness limit, star-forming or not, enters a two-component model (the sequence plus a broad component, in the spirit of the outlier mixture of Hogg, Bovy and Lang 2010), so no hard sSFR cut truncates the sequence; each galaxy gets its probability of belonging to the sequence (catalogue column p_sequence).');
   if (rel.methods.includes('running-median'))
     methodNotes.push('Running median: median and 16-84% spread of y in bins of x; the bootstrap resamples both the galaxies and one posterior draw per galaxy.');
 
@@ -260,5 +279,6 @@ function fitRelation(
     },
     offset,
     tension,
+    membership,
   };
 }

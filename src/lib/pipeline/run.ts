@@ -9,7 +9,7 @@ import { loadBundle, type Bundle } from '../bundle/load.ts';
 import { makeCosmology } from '../core/cosmology.ts';
 import { FLAG_INFO } from '../core/flags.ts';
 import { slugOf } from '../core/slug.ts';
-import { formatProblem } from '../core/problems.ts';
+import { formatProblem, PosterityError, type Problem } from '../core/problems.ts';
 import { summariseAll, type ObjectCharts } from './summarise.ts';
 import { runPopulation, roleIndex } from './population.ts';
 import { buildCatalogue } from './catalogue.ts';
@@ -21,6 +21,7 @@ import { writeArrow } from '../io/arrow.ts';
 import { buildEvidence } from './evidence.ts';
 import { siteOverview } from './overview.ts';
 import type { SiteContent, OutlierEntry } from './content.ts';
+import type { MergedSummary } from './summarise-partition.ts';
 
 export const TOOL = { name: 'posterity', version: '0.1.0' };
 
@@ -31,6 +32,8 @@ export interface PipelineOptions {
   progress?: (stage: string, done: number, total: number) => void;
   /** Truth of a mock, for display (relation truth per bin). */
   truth?: Parameters<typeof runPopulation>[0]['truth'];
+  /** Summaries merged from partials (`posterity merge`), used instead of summarising again; `source` names them in errors. */
+  summaries?: { merged: MergedSummary; source: string };
 }
 
 export interface PipelineResult {
@@ -55,7 +58,7 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
 
   // summaries; corner data kept per object until the pages are written
   const charts: (ObjectCharts | null)[] = new Array(n).fill(null);
-  const { table: summary, pop } = await summariseAll(bundle, {
+  const { table: summary, pop } = opts.summaries ? await givenSummaries(bundle, opts.summaries, charts) : await summariseAll(bundle, {
     seed: config.seed,
     onCharts: (i, c) => {
       charts[i] = c;
@@ -144,12 +147,32 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
   // object pages
   const neighbours = nearestNeighbours(objects.ra, objects.dec, 5, 30 / 3600);
   const index = objectIndexEntries(bundle, summary, popResult.population);
-  const ctx = { bundle, summary, popResult, neighbours, pStarForming: popResult.pSequence, downloads: (i: number) => objectDownloadPaths(bundle, i) };
+  // above the page limit, objects are written in shards for one static viewer page
+  const viewer = n > config.site.objectPageLimit;
+  const shardSize = config.site.shardSize;
+  const ctx = {
+    bundle,
+    summary,
+    popResult,
+    neighbours,
+    pStarForming: popResult.pSequence,
+    downloads: (i: number) => (viewer ? { draws: null, photometry: null } : objectDownloadPaths(bundle, i)),
+  };
+  let shard: string[] = [];
+  if (viewer) await mkdir(join(contentDir, 'objects', 'shards'), { recursive: true });
   for (let i = 0; i < n; i++) {
     const oc = objectContent(ctx, i, charts[i]);
     charts[i] = null;
-    await writeFile(join(contentDir, 'objects', `${oc.slug}.json`), JSON.stringify(oc));
-    await writeObjectDownloads(dl, bundle, i);
+    if (viewer) {
+      shard.push(JSON.stringify(oc));
+      if (shard.length === shardSize || i === n - 1) {
+        await writeFile(join(contentDir, 'objects', 'shards', `${shardName(Math.floor(i / shardSize))}.json`), `[${shard.join(',')}]`);
+        shard = [];
+      }
+    } else {
+      await writeFile(join(contentDir, 'objects', `${oc.slug}.json`), JSON.stringify(oc));
+      await writeObjectDownloads(dl, bundle, i);
+    }
     if (i % 200 === 0) progress('objects', i, n);
   }
   progress('objects', n, n);
@@ -218,10 +241,37 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
     downloads,
     ...siteOverview(objects, summary, popResult.population, iM),
     tool: TOOL,
+    objectPages: viewer ? { mode: 'viewer', shardSize, limit: config.site.objectPageLimit } : { mode: 'static', shardSize, limit: config.site.objectPageLimit },
+    quality: { minEss: config.quality.minEss, minChi2Pvalue: config.quality.minChi2Pvalue, priorEdgeWidth: config.quality.priorEdgeWidth, priorEdgeMass: config.quality.priorEdgeMass, multimodalMinMass: config.quality.multimodalMinMass, outlierTension: config.quality.outlierTension },
     warnings: [...bundle.warnings.map(formatProblem), ...popResult.warnings],
   };
   await writeJson(join(contentDir, 'site.json'), site);
   return { bundle, objects: n, warnings: site.warnings };
+}
+
+/** Merged summaries checked against the bundle (same inputs, tool version, objects and parameters); their corner data goes into `charts`. */
+async function givenSummaries(bundle: Bundle, given: NonNullable<PipelineOptions['summaries']>, charts: (ObjectCharts | null)[]): Promise<Pick<MergedSummary, 'table' | 'pop'>> {
+  const { summaryMeta } = await import('./summarise-partition.ts');
+  const want = summaryMeta(bundle);
+  const { meta, table } = given.merged;
+  const file = given.source;
+  const problems: Problem[] = [];
+  if (meta.tool.name !== TOOL.name || meta.tool.version !== TOOL.version)
+    problems.push({ severity: 'error', file, field: 'tool', message: 'summaries written by another version of the tool; summarise again', expected: `${TOOL.name} ${TOOL.version}`, got: `${meta.tool.name} ${meta.tool.version}` });
+  if (JSON.stringify(meta.bundle) !== JSON.stringify(want.bundle)) {
+    const differs = meta.bundle.configSha256 !== want.bundle.configSha256 ? 'release.json' : (want.bundle.inputs.find((x, i) => JSON.stringify(x) !== JSON.stringify(meta.bundle.inputs[i]))?.path ?? 'the list of input files');
+    problems.push({ severity: 'error', file, field: 'bundle', message: `summaries of a different bundle (${differs} differs from when they were made); summarise again`, expected: `the checksums of ${bundle.dir}`, got: 'other checksums' });
+  }
+  if (table.n !== bundle.objects.n || JSON.stringify(meta.params) !== JSON.stringify(want.params))
+    problems.push({ severity: 'error', file, field: 'params', message: 'summaries of other objects or parameters', expected: `${bundle.objects.n} objects, parameters ${want.params.join(', ')}`, got: `${table.n} objects, parameters ${meta.params.join(', ')}` });
+  if (problems.length) throw new PosterityError(problems);
+  given.merged.charts?.forEach((c, i) => (charts[i] = c));
+  return given.merged;
+}
+
+/** Shard file name of a shard number: zero-padded so names sort in catalogue order. */
+export function shardName(k: number): string {
+  return String(k).padStart(6, '0');
 }
 
 function countWith(offsets: Int32Array): number {

@@ -2,19 +2,26 @@
  * Per-object posterior summaries: every object's draws are gathered, their weights
  * normalised, and each parameter summarised (mean, std, quantiles, HDI), with the
  * effective sample size, diagnostics and flags, the corner-plot densities, and a small
- * equal-weight resample kept for population fits. Work is done object by object in
- * catalogue order, so the output does not depend on how the input rows were ordered.
+ * equal-weight resample kept for population fits.
+ *
+ * The work is split by whole objects (`summarise-kernel.ts`) over worker threads
+ * (`summarise-pool.ts`), and results are placed by catalogue index, so one worker and many
+ * give the same arrays. With the samples in memory (a bundle loaded whole) objects are
+ * gathered from the loader's grouping; with `loadBundle(dir, { samples: false })` the samples
+ * file is streamed in batches (`summarise-stream.ts`) and never held whole.
  */
+import { availableParallelism } from 'node:os';
 import type { Bundle } from '../bundle/load.ts';
 import type { ReleaseConfig } from '../bundle/schema.ts';
-import { normaliseWeights, kishEss } from '../core/stats/weights.ts';
-import { summarise, weightedCovariance, correlationFromCovariance, autocorrEss, type ParamSummary } from '../core/stats/summary.ts';
+import { ProblemSink } from '../bundle/coerce.ts';
+import { PosterityError } from '../core/problems.ts';
 import { chi2Sf } from '../core/stats/special.ts';
-import { histogram, kde, density2d, creditLevels, contourPaths } from '../core/stats/density.ts';
-import { isMultimodal, priorEdgeMass } from '../core/stats/diagnostics.ts';
 import { FLAGS } from '../core/flags.ts';
-import { makeRng, deriveSeed } from '../core/random.ts';
-import type { Contour2d, Marginal } from './content.ts';
+import { kernelContext, STAT_FIELDS, type BatchResult, type ObjectBatch, type ObjectCharts } from './summarise-kernel.ts';
+import { SummaryPool } from './summarise-pool.ts';
+import { groupedBatches, NotGrouped, sampleLayout, spilledBatches, type SampleLayout } from './summarise-stream.ts';
+
+export { MASS_LEVELS, MULTIMODAL_OPTS, type ObjectCharts } from './summarise-kernel.ts';
 
 export interface SummaryTable {
   n: number;
@@ -55,24 +62,8 @@ export interface PopulationDraws {
   hasLogPrior: boolean;
 }
 
-export interface ObjectCharts {
-  marginals: Marginal[];
-  contours: Contour2d[];
-  correlation: number[][] | null;
-}
-
-export const MASS_LEVELS = [0.68, 0.95] as const;
-
-/**
- * Multimodality rule: a weighted Gaussian KDE at Silverman's bandwidth; a secondary peak
- * counts when its basin holds at least `minMass` of the posterior and the valley between
- * it and its neighbour is below half the lower peak's height.
- */
-export const MULTIMODAL_OPTS = (minMass: number) => ({ minMass, bandwidthFactor: 1, maxValleyRatio: 0.5 });
-
-function allocF(n: number, k: number, fill = NaN): Float64Array[] {
-  return Array.from({ length: k }, () => new Float64Array(n).fill(fill));
-}
+/** The per-parameter statistics of `SummaryTable`, in the kernel's `STAT_NAMES` order. */
+export const STAT_KEYS = ['mean', 'std', 'p025', 'p16', 'p50', 'p84', 'p975', 'hdi68lo', 'hdi68hi', 'hdi95lo', 'hdi95hi', 'edgeMass'] as const;
 
 /** Degrees of freedom of an object's chi-square: bands minus the configured number (default: the free parameters). */
 export function degreesOfFreedom(nBands: number, config: ReleaseConfig): number {
@@ -80,86 +71,12 @@ export function degreesOfFreedom(nBands: number, config: ReleaseConfig): number 
   return nBands - sub;
 }
 
-function round(v: number, digits = 5): number {
-  if (!Number.isFinite(v)) return v;
-  return Number(v.toPrecision(digits));
+function allocF(n: number, k: number, fill = NaN): Float64Array[] {
+  return Array.from({ length: k }, () => new Float64Array(n).fill(fill));
 }
 
-/** Corner-plot data: 1-D histograms and KDEs, 2-D contours enclosing 68% and 95% of the mass. */
-function chartsFor(names: string[], xs: Float64Array[], w: Float64Array, seed: number): ObjectCharts {
-  const k = xs.length;
-  const marginals: Marginal[] = [];
-  const ranges: [number, number][] = [];
-  for (let j = 0; j < k; j++) {
-    const h = histogram(xs[j], w, { rule: 'fd' });
-    const lo = h.edges[0], hi = h.edges[h.edges.length - 1];
-    ranges.push([lo, hi]);
-    const grid = new Float64Array(64);
-    for (let g = 0; g < 64; g++) grid[g] = lo + ((hi - lo) * g) / 63;
-    const dens = kde(xs[j], w, grid, { bandwidth: 'silverman' });
-    marginals.push({
-      param: names[j],
-      edges: Array.from(h.edges, (v) => round(v)),
-      density: Array.from(h.density, (v) => round(v, 4)),
-      kdeX: Array.from(grid, (v) => round(v)),
-      kdeY: Array.from(dens.density, (v) => round(v, 4)),
-      rule: `${h.rule}; KDE bandwidth ${round(dens.bandwidth, 3)} (Silverman)`,
-    });
-  }
-  const contours: Contour2d[] = [];
-  // a light scatter of equal-weight points under the contours
-  const rng = makeRng(seed);
-  const cdf = new Float64Array(w.length);
-  let acc = 0;
-  for (let i = 0; i < w.length; i++) cdf[i] = acc += w[i];
-  const nPts = Math.min(150, w.length);
-  const picks = new Int32Array(nPts);
-  for (let p = 0; p < nPts; p++) {
-    const u = rng.next() * acc;
-    let lo = 0, hi = w.length - 1;
-    while (lo < hi) {
-      const mid = (lo + hi) >> 1;
-      if (cdf[mid] < u) lo = mid + 1;
-      else hi = mid;
-    }
-    picks[p] = lo;
-  }
-  for (let a = 0; a < k; a++) {
-    for (let b = a + 1; b < k; b++) {
-      const grid = density2d(xs[a], xs[b], w, { nx: 40, ny: 40, xRange: ranges[a], yRange: ranges[b], smooth: 1 });
-      const levels = creditLevels(grid.z, MASS_LEVELS);
-      contours.push({
-        x: names[a],
-        y: names[b],
-        levels: MASS_LEVELS.map((mass, li) => ({
-          mass,
-          paths: contourPaths(grid, levels[li]).map((path) => path.map(([px, py]) => [round(px, 4), round(py, 4)] as [number, number])),
-        })),
-        points: Array.from(picks, (i) => [round(xs[a][i], 4), round(xs[b][i], 4)] as [number, number]),
-      });
-    }
-  }
-  return { marginals, contours, correlation: null };
-}
-
-export interface SummariseOptions {
-  popDraws?: number;
-  seed: number;
-  /** Called once per object, in catalogue order, with its corner-plot data. */
-  onCharts?: (index: number, charts: ObjectCharts) => void | Promise<void>;
-}
-
-/** Summarise every object's posterior. */
-export async function summariseAll(bundle: Bundle, opts: SummariseOptions): Promise<{ table: SummaryTable; pop: PopulationDraws }> {
-  const { config, objects, samples, photometry } = bundle;
-  const n = objects.n;
-  const params = config.parameters;
-  const k = params.length;
-  const names = params.map((p) => p.name);
-  const q = config.quality;
-  const m = opts.popDraws ?? 64;
-
-  const t: SummaryTable = {
+export function allocSummaryTable(n: number, k: number): SummaryTable {
+  return {
     n,
     k,
     mean: allocF(n, k),
@@ -185,16 +102,74 @@ export async function summariseAll(bundle: Bundle, opts: SummariseOptions): Prom
     flags: new Int32Array(n),
     summariesOnly: new Uint8Array(n),
   };
-  const pop: PopulationDraws = {
+}
+
+export function allocPopulationDraws(n: number, k: number, m: number, hasLogPrior: boolean): PopulationDraws {
+  return {
     m,
     values: Array.from({ length: k }, () => new Float64Array(n * m).fill(NaN)),
     logPrior: new Float64Array(n * m).fill(NaN),
-    hasLogPrior: !!samples?.logPrior,
+    hasLogPrior,
   };
+}
 
-  // bands per object for the chi-square degrees of freedom
-  const bandsPerObject = new Int32Array(n);
-  if (objects.nBands) bandsPerObject.set(objects.nBands);
+export interface SummariseOptions {
+  popDraws?: number;
+  seed: number;
+  /**
+   * Called once per object with draws, with its catalogue index and corner-plot data: in
+   * catalogue order for samples in memory or spilled, in samples-file order when streamed
+   * (the same order for any number of workers). When streamed samples turn out not to be
+   * grouped by object part-way through, the summaries start again from a spill of the file:
+   * `onRestart` is called, then `onCharts` again for every object (a later call for an index
+   * supersedes an earlier one).
+   */
+  onCharts?: (index: number, charts: ObjectCharts) => void | Promise<void>;
+  onRestart?: () => void | Promise<void>;
+  /** Worker threads (default: one per core; 1 works in this thread). Results do not depend on it. */
+  workers?: number;
+  /** Only objects for which this is true are summarised (the others keep their initial NaN/0 values). */
+  only?: (index: number) => boolean;
+  /** Streaming: rows per batch handed to a worker (whole objects; default 16384). */
+  batchRows?: number;
+  /** Streaming, unsorted input: largest spill file read back at once (default 256 MB). */
+  spillBudgetBytes?: number;
+  /** Streaming: how the samples were read. */
+  onStream?: (info: StreamInfo) => void;
+}
+
+export interface StreamInfo {
+  mode: 'in-memory' | 'grouped' | 'spilled';
+  /** Why the grouped pass gave up, when it did. */
+  restartReason?: string;
+  spill?: { partitions: number; bytes: number; rows: number };
+}
+
+export interface SummaryResult {
+  table: SummaryTable;
+  pop: PopulationDraws;
+}
+
+/** Chi-square survival probability and the poor-fit flag of object i. */
+function fitQuality(bundle: Bundle, t: SummaryTable, i: number, bandsPerObject: Int32Array): void {
+  const { config, objects } = bundle;
+  const chi2 = objects.chi2 ? objects.chi2[i] : NaN;
+  t.chi2[i] = chi2;
+  if (Number.isFinite(chi2) && bandsPerObject[i] > 0) {
+    const dof = degreesOfFreedom(bandsPerObject[i], config);
+    if (dof > 0) {
+      t.dof[i] = dof;
+      t.chi2Pvalue[i] = chi2Sf(chi2, dof);
+      if (t.chi2Pvalue[i] < config.quality.minChi2Pvalue) t.flags[i] |= FLAGS.POOR_FIT;
+    }
+  }
+}
+
+function bandsPerObject(bundle: Bundle): Int32Array {
+  const { objects, photometry } = bundle;
+  const n = objects.n;
+  const out = new Int32Array(n);
+  if (objects.nBands) out.set(objects.nBands);
   else if (photometry)
     for (let i = 0; i < n; i++) {
       let c = 0;
@@ -202,120 +177,189 @@ export async function summariseAll(bundle: Bundle, opts: SummariseOptions): Prom
         const row = photometry.order[r];
         if (!(photometry.upperLimit && photometry.upperLimit[row])) c++;
       }
-      bandsPerObject[i] = c;
+      out[i] = c;
     }
+  return out;
+}
 
-  let buf: Float64Array[] = Array.from({ length: k }, () => new Float64Array(1024));
-  let wbuf = new Float64Array(1024);
-  for (let i = 0; i < n; i++) {
-    const id = objects.id[i];
-    let flags = 0;
-    // chi-square survival probability
-    const chi2 = objects.chi2 ? objects.chi2[i] : NaN;
-    t.chi2[i] = chi2;
-    if (Number.isFinite(chi2) && bandsPerObject[i] > 0) {
-      const dof = degreesOfFreedom(bandsPerObject[i], config);
-      if (dof > 0) {
-        t.dof[i] = dof;
-        t.chi2Pvalue[i] = chi2Sf(chi2, dof);
-        if (t.chi2Pvalue[i] < q.minChi2Pvalue) flags |= FLAGS.POOR_FIT;
-      }
-    }
-    const a = samples ? samples.offsets[i] : 0;
-    const b = samples ? samples.offsets[i + 1] : 0;
-    const len = b - a;
-    if (!samples || len === 0) {
-      // summaries supplied in the objects table
-      t.summariesOnly[i] = 1;
-      flags |= FLAGS.SUMMARIES_ONLY;
-      params.forEach((p, j) => {
-        const s = objects.summaries[p.name];
-        if (!s) return;
-        t.p16[j][i] = s.p16[i];
-        t.p50[j][i] = s.p50[i];
-        t.p84[j][i] = s.p84[i];
-        t.mean[j][i] = s.p50[i];
-        t.std[j][i] = (s.p84[i] - s.p16[i]) / 2;
-        // Gaussian approximation for the population fits
-        const sd = t.std[j][i];
-        t.cov[i * k * k + j * k + j] = sd * sd;
-      });
-      for (let a2 = 0; a2 < k; a2++) for (let b2 = 0; b2 < k; b2++) if (a2 !== b2) t.cov[i * k * k + a2 * k + b2] = 0;
-      t.flags[i] = flags;
-      continue;
-    }
-    if (buf[0].length < len) {
-      buf = Array.from({ length: k }, () => new Float64Array(len * 2));
-      wbuf = new Float64Array(len * 2);
-    }
-    const xs = buf.map((bb) => bb.subarray(0, len));
-    const raw = wbuf.subarray(0, len);
-    const src = samples.weight ?? samples.logWeight!;
-    for (let r = 0; r < len; r++) {
-      const row = samples.order[a + r];
-      raw[r] = src[row];
-      for (let j = 0; j < k; j++) xs[j][r] = samples.params[j][row];
-    }
-    const w = normaliseWeights(samples.weight ? { weights: raw } : { logWeights: raw }, id);
-    t.nSamples[i] = len;
-    if (samples.chain) {
-      const chain = new Int32Array(len);
-      for (let r = 0; r < len; r++) chain[r] = samples.chain[samples.order[a + r]];
-      let ess = Infinity;
-      for (let j = 0; j < k; j++) ess = Math.min(ess, autocorrEss(xs[j], chain));
-      t.ess[i] = ess;
-      t.essKind[i] = 'autocorrelation';
-    } else t.ess[i] = kishEss(w);
-    if (t.ess[i] < q.minEss) flags |= FLAGS.LOW_ESS;
+/** Summaries supplied in the objects table (objects without draws). */
+function summariesOnly(bundle: Bundle, t: SummaryTable, i: number): void {
+  const k = t.k;
+  t.summariesOnly[i] = 1;
+  t.flags[i] |= FLAGS.SUMMARIES_ONLY;
+  bundle.config.parameters.forEach((p, j) => {
+    const s = bundle.objects.summaries[p.name];
+    if (!s) return;
+    t.p16[j][i] = s.p16[i];
+    t.p50[j][i] = s.p50[i];
+    t.p84[j][i] = s.p84[i];
+    t.mean[j][i] = s.p50[i];
+    t.std[j][i] = (s.p84[i] - s.p16[i]) / 2;
+    // Gaussian approximation for the population fits
+    const sd = t.std[j][i];
+    t.cov[i * k * k + j * k + j] = sd * sd;
+  });
+  for (let a = 0; a < k; a++) for (let b = 0; b < k; b++) if (a !== b) t.cov[i * k * k + a * k + b] = 0;
+}
 
+/** Place a batch's results at their catalogue indices. */
+export function applyBatchResult(t: SummaryTable, pop: PopulationDraws, r: BatchResult): void {
+  const k = t.k;
+  const m = pop.m;
+  const cols = STAT_KEYS.map((key) => t[key]);
+  for (let o = 0; o < r.index.length; o++) {
+    const i = r.index[o];
     for (let j = 0; j < k; j++) {
-      const s: ParamSummary = summarise(xs[j], w);
-      t.mean[j][i] = s.mean;
-      t.std[j][i] = s.std;
-      t.p025[j][i] = s.p025;
-      t.p16[j][i] = s.p16;
-      t.p50[j][i] = s.p50;
-      t.p84[j][i] = s.p84;
-      t.p975[j][i] = s.p975;
-      t.hdi68lo[j][i] = s.hdi68[0];
-      t.hdi68hi[j][i] = s.hdi68[1];
-      t.hdi95lo[j][i] = s.hdi95[0];
-      t.hdi95hi[j][i] = s.hdi95[1];
-      if (isMultimodal(xs[j], w, MULTIMODAL_OPTS(q.multimodalMinMass))) {
-        t.multimodal[j][i] = 1;
-        flags |= FLAGS.MULTIMODAL;
-      }
-      const prior = params[j].prior;
-      if (prior?.kind === 'uniform') {
-        const em = priorEdgeMass(xs[j], w, { min: prior.min, max: prior.max }, q.priorEdgeWidth);
-        t.edgeMass[j][i] = em;
-        if (em > q.priorEdgeMass) flags |= FLAGS.PRIOR_EDGE;
-      }
+      const at = (o * k + j) * STAT_FIELDS;
+      for (let f = 0; f < STAT_FIELDS; f++) cols[f][j][i] = r.stats[at + f];
+      t.multimodal[j][i] = r.multimodal[o * k + j];
+      pop.values[j].set(r.popValues.subarray((o * k + j) * m, (o * k + j + 1) * m), i * m);
     }
-    const cov = weightedCovariance(xs, w);
-    t.cov.set(cov, i * k * k);
-    t.flags[i] = flags;
+    t.cov.set(r.cov.subarray(o * k * k, (o + 1) * k * k), i * k * k);
+    t.ess[i] = r.ess[o];
+    t.essKind[i] = r.essKind[o] ? 'autocorrelation' : 'kish';
+    t.nSamples[i] = r.nSamples[o];
+    t.flags[i] = (t.flags[i] & FLAGS.POOR_FIT) | r.flags[o]; // a restarted pass replaces, never adds
+    pop.logPrior.set(r.popLogPrior.subarray(o * m, (o + 1) * m), i * m);
+  }
+}
 
-    // equal-weight resample (systematic resampling, seeded per object)
-    const rng = makeRng(deriveSeed(opts.seed, 'pop', id));
-    const u0 = rng.next() / m;
-    let acc = 0;
+/** Batches of whole objects from samples already in memory (the loader's grouping), in catalogue order. */
+function* memoryBatches(bundle: Bundle, only: ((i: number) => boolean) | undefined, batchRows: number): Generator<ObjectBatch> {
+  const s = bundle.samples!;
+  const k = bundle.config.parameters.length;
+  const n = bundle.objects.n;
+  const src = s.weight ?? s.logWeight!;
+  let i = 0;
+  while (i < n) {
+    const members: number[] = [];
+    let rows = 0;
+    for (; i < n && rows < batchRows; i++) {
+      const len = s.offsets[i + 1] - s.offsets[i];
+      if (len === 0 || (only && !only(i))) continue;
+      members.push(i);
+      rows += len;
+    }
+    if (!members.length) continue;
+    const offsets = new Int32Array(members.length + 1);
+    members.forEach((obj, o) => (offsets[o + 1] = offsets[o] + s.offsets[obj + 1] - s.offsets[obj]));
+    const params = Array.from({ length: k }, () => new Float64Array(rows));
+    const weight = new Float64Array(rows);
+    const logPrior = s.logPrior ? new Float64Array(rows) : null;
+    const chain = s.chain ? new Int32Array(rows) : null;
     let r = 0;
-    for (let d = 0; d < m; d++) {
-      const u = u0 + d / m;
-      while (r < len - 1 && acc + w[r] < u) acc += w[r++];
-      const row = samples.order[a + r];
-      for (let j = 0; j < k; j++) pop.values[j][i * m + d] = xs[j][r];
-      if (samples.logPrior) pop.logPrior[i * m + d] = samples.logPrior[row];
-    }
+    for (const obj of members)
+      for (let q = s.offsets[obj]; q < s.offsets[obj + 1]; q++, r++) {
+        const row = s.order[q];
+        for (let j = 0; j < k; j++) params[j][r] = s.params[j][row];
+        weight[r] = src[row];
+        if (logPrior) logPrior[r] = s.logPrior![row];
+        if (chain) chain[r] = s.chain![row];
+      }
+    yield { index: Int32Array.from(members), ids: members.map((obj) => bundle.objects.id[obj]), offsets, params, weight, logPrior, chain };
+  }
+}
 
-    if (opts.onCharts) {
-      const charts = chartsFor(names, xs, w, deriveSeed(opts.seed, 'corner', id));
-      charts.correlation = Array.from({ length: k }, (_, r1) =>
-        Array.from(correlationFromCovariance(cov, k).subarray(r1 * k, r1 * k + k), (v) => round(v, 3)),
-      );
-      await opts.onCharts(i, charts);
+/**
+ * Runs batches through the pool and applies the results in submission order (so corner data
+ * reaches `onCharts` in catalogue order), keeping at most `maxInFlight` batches outstanding.
+ */
+async function drive(
+  pool: SummaryPool,
+  source: AsyncIterable<ObjectBatch> | Iterable<ObjectBatch>,
+  apply: (r: BatchResult) => Promise<void>,
+  maxInFlight: number,
+): Promise<void> {
+  const pending: Promise<BatchResult>[] = [];
+  try {
+    for await (const batch of source) {
+      const p = pool.run(batch);
+      p.catch(() => {}); // rejections are seen when the promise is awaited in order
+      pending.push(p);
+      while (pending.length >= maxInFlight) await apply(await pending.shift()!);
+    }
+    while (pending.length) await apply(await pending.shift()!);
+  } finally {
+    // let outstanding work settle before the pool is closed
+    await Promise.allSettled(pending);
+  }
+}
+
+/** Summarise every object's posterior (or those `opts.only` selects). */
+export async function summariseAll(bundle: Bundle, opts: SummariseOptions): Promise<SummaryResult> {
+  const { config, objects, samples } = bundle;
+  const n = objects.n;
+  const k = config.parameters.length;
+  const m = opts.popDraws ?? 64;
+  const only = opts.only;
+  const streamed = !samples && !!config.tables.samples;
+  const layout: SampleLayout | null = streamed ? await sampleLayout(bundle) : null;
+  const hasLogPrior = samples ? !!samples.logPrior : !!layout?.logPrior;
+  const logWeights = samples ? !samples.weight : !!layout?.logWeights;
+  const t = allocSummaryTable(n, k);
+  const pop = allocPopulationDraws(n, k, m, hasLogPrior);
+  const bands = bandsPerObject(bundle);
+  for (let i = 0; i < n; i++) if (!only || only(i)) fitQuality(bundle, t, i, bands);
+
+  const seen = new Uint8Array(n);
+  let sink = new ProblemSink();
+  if (samples || layout) {
+    const workers = Math.max(1, Math.floor(opts.workers ?? availableParallelism()));
+    const ctx = kernelContext(config, { seed: opts.seed, m, logWeights, charts: !!opts.onCharts });
+    const pool = new SummaryPool(ctx, workers);
+    const maxInFlight = 2 * Math.max(1, pool.threads) + 1;
+    const apply = async (r: BatchResult) => {
+      applyBatchResult(t, pop, r);
+      if (opts.onCharts && r.charts) for (let o = 0; o < r.index.length; o++) await opts.onCharts(r.index[o], r.charts[o]);
+    };
+    const batchRows = opts.batchRows ?? 16384;
+    try {
+      if (samples) {
+        opts.onStream?.({ mode: 'in-memory' });
+        for (let i = 0; i < n; i++) if (samples.offsets[i + 1] > samples.offsets[i]) seen[i] = 1;
+        await drive(pool, memoryBatches(bundle, only, batchRows), apply, maxInFlight);
+      } else {
+        const base = { only, sink, seen, batchRows };
+        try {
+          await drive(pool, groupedBatches(bundle, layout!, base), apply, maxInFlight);
+          opts.onStream?.({ mode: 'grouped' });
+        } catch (e) {
+          if (!(e instanceof NotGrouped)) throw e;
+          // not grouped by object: start again from a spill of the file (see summarise-stream.ts)
+          seen.fill(0);
+          sink = new ProblemSink();
+          await opts.onRestart?.();
+          let spill: StreamInfo['spill'];
+          await drive(
+            pool,
+            spilledBatches(bundle, layout!, { ...base, sink, budgetBytes: opts.spillBudgetBytes, onSpill: (s) => (spill = s) }),
+            apply,
+            maxInFlight,
+          );
+          opts.onStream?.({ mode: 'spilled', restartReason: e.message, spill });
+        }
+      }
+    } finally {
+      await pool.close();
     }
   }
+  const file = config.tables.objects.path;
+  for (let i = 0; i < n; i++) {
+    if (seen[i] || (only && !only(i))) continue;
+    if (streamed && !config.parameters.every((p) => objects.summaries[p.name]) && objects.index.get(objects.id[i]) === i)
+      sink.add({
+        severity: 'error',
+        file,
+        row: (objects.fileRow ? objects.fileRow[i] : i) + 1,
+        column: config.tables.objects.columns.id ?? 'id',
+        object: objects.id[i],
+        message: 'object has no posterior draws',
+        expected: `rows with this id in ${config.tables.samples!.path} (or _p16/_p50/_p84 summary columns for every parameter)`,
+        got: 'no rows',
+      });
+    summariesOnly(bundle, t, i);
+  }
+  const problems = sink.finish();
+  if (problems.some((p) => p.severity === 'error')) throw new PosterityError(problems);
   return { table: t, pop };
 }

@@ -10,6 +10,7 @@ import { mkdir, rename, rm } from 'node:fs/promises';
 import { basename, dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { runPipeline, type PipelineOptions } from '../pipeline/run.ts';
+import { PosterityError } from '../core/problems.ts';
 
 export const PROJECT_ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
 
@@ -20,6 +21,8 @@ export interface BuildOptions {
   truth?: PipelineOptions['truth'];
   /** Keep a copy of the derived content here (default: none). */
   keepContent?: string;
+  /** Folder of merged summaries (`posterity merge --out`), used instead of summarising again. */
+  summaries?: string;
 }
 
 export interface BuildSummary {
@@ -91,6 +94,26 @@ function run(cmd: string, args: string[], env: NodeJS.ProcessEnv, log: (l: strin
   });
 }
 
+/** The partial-summary files (`*.partial`) of a folder, sorted; temporary files of unfinished writes are not among them. */
+export async function partialFilesIn(dir: string): Promise<string[]> {
+  const { readdir } = await import('node:fs/promises');
+  let names: string[];
+  try {
+    names = await readdir(dir);
+  } catch (e) {
+    throw new PosterityError({ severity: 'error', file: dir, message: `cannot read the summaries folder (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})` });
+  }
+  return names.filter((f) => f.endsWith('.partial')).sort().map((f) => join(dir, f));
+}
+
+/** Summaries from a folder written by `posterity merge` (a folder of partials is merged on the way). */
+async function readSummaries(dir: string): Promise<NonNullable<PipelineOptions['summaries']>> {
+  const files = await partialFilesIn(resolve(dir));
+  if (!files.length) throw new PosterityError({ severity: 'error', file: resolve(dir), message: 'no summaries (*.partial) in this folder', expected: 'the output folder of posterity merge' });
+  const { mergePartials } = await import('../pipeline/summarise-partition.ts');
+  return { merged: await mergePartials(files), source: files.length === 1 ? files[0] : resolve(dir) };
+}
+
 export async function buildRelease(bundleDir: string, opts: BuildOptions): Promise<BuildSummary> {
   const t0 = Date.now();
   const out = resolve(opts.out);
@@ -102,8 +125,9 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     await rm(stage, { recursive: true, force: true });
     await mkdir(stage, { recursive: true });
     const contentDir = join(stage, 'content');
-    const downloadsDir = join(stage, 'downloads');
-    const result = await runPipeline(resolve(bundleDir), { contentDir, downloadsDir, progress: opts.progress, truth: opts.truth });
+    const downloadsDir = join(contentDir, 'downloads'); // copied into the site by the relative-urls integration
+    const summaries = opts.summaries ? await readSummaries(opts.summaries) : undefined;
+    const result = await runPipeline(resolve(bundleDir), { contentDir, downloadsDir, progress: opts.progress, truth: opts.truth, summaries });
     opts.progress?.('figures', 0, 1);
     const { prerenderFigures } = await import('../charts/prerender.ts');
     await prerenderFigures(contentDir, {});
@@ -112,8 +136,7 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     const siteDir = join(stage, 'site');
     await run(process.execPath, [join(PROJECT_ROOT, 'node_modules/astro/astro.js'), 'build', '--silent'], { POSTERITY_CONTENT: contentDir, POSTERITY_OUT: siteDir, ASTRO_TELEMETRY_DISABLED: '1' }, log);
     opts.progress?.('site', 1, 1);
-    await rm(join(siteDir, 'downloads'), { recursive: true, force: true });
-    await rename(downloadsDir, join(siteDir, 'downloads'));
+    if (!existsSync(join(siteDir, 'downloads', 'SHA256SUMS'))) throw new Error('the site build did not copy the downloads');
     if (opts.keepContent) {
       await rm(opts.keepContent, { recursive: true, force: true });
       await rename(contentDir, resolve(opts.keepContent));

@@ -1,7 +1,10 @@
 /**
  * Injection and recovery for the deconvolved fit: 300 simulated populations with known
- * (a, b, s) and Gaussian posteriors (correlated, heteroscedastic x-y errors, x errors small
- * compared with the spread of x, where the method is unbiased). For calibrated posteriors the
+ * (a, b, s) and Gaussian posteriors with heteroscedastic errors, in the regime the flat-x
+ * likelihood is built for: x errors (0.01-0.03) tiny compared with the spread of x (0.5),
+ * uncorrelated with the y errors, so its predicted bias (mean Cxy - b mean Cxx) / Var x
+ * ~ -0.001 is well under the 0.003 standard error of the 300-run mean. (Larger or correlated x
+ * errors bias it as predicted: see deconvolved.test.ts; the hierarchical fit handles them.) For calibrated posteriors the
  * central 68.27% interval covers the truth 68.27% of the time; with 300 runs the binomial sd
  * is 2.7%, so [0.60, 0.76] is about +/- 3 sd.
  */
@@ -16,7 +19,7 @@ describe('fitDeconvolved injection and recovery (300 populations)', () => {
     const fits = [];
     const t0 = performance.now();
     for (let r = 0; r < runs; r++) {
-      const p = gaussianPopulation(150, truth, 5000 + r, { sx: [0.03, 0.08], sy: [0.1, 0.3], rho: 0.5 });
+      const p = gaussianPopulation(150, truth, 5000 + r, { sx: [0.01, 0.03], sy: [0.1, 0.3], rho: 0 });
       fits.push(fitDeconvolved(p, { pivot: truth.pivot, seed: r, nWalkers: 12, nSteps: 300 }));
     }
     const cov = {

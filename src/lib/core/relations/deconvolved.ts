@@ -136,9 +136,11 @@ export function marginalPosterior(d: DeconvolvedData, pivot: number): (theta: Fl
  * (Goodman & Weare 2010) started from the Laplace approximation at the posterior mode, and
  * each stored position gets an exact draw of a from its Gaussian conditional, so the (a, b, s)
  * draws are from the joint posterior. Caveat: the objects' true x values get no population
- * model (an implicitly flat distribution in x), so when x uncertainties are not small compared
- * with the spread of x the slope is attenuated, as in ordinary least squares (Kelly 2007,
- * ApJ 665, 1489, sect. 2); the fit then warns, and the hierarchical fit should be preferred.
+ * model (an implicitly flat distribution in x; this likelihood is the infinitely broad limit of
+ * the Gaussian-x model of Kelly 2007, ApJ 665, 1489), so when x errors, or their correlation
+ * with y errors, are not small compared with the spread of x the slope is biased by about
+ * `predictedSlopeBias`, as in least squares; the fit warns when that exceeds half a posterior
+ * sd, and the hierarchical fit (which models the x distribution) should be preferred.
  */
 export function fitDeconvolved(d: DeconvolvedData, opts: DeconvolvedOptions): RelationFit {
   const n = validate(d);
@@ -181,10 +183,11 @@ export function fitDeconvolved(d: DeconvolvedData, opts: DeconvolvedOptions): Re
   const [a, b, s] = summariseChain(chain, nSteps, nWalkers, 3, burn);
   const diag = chainDiagnostics(chain, nSteps, nWalkers, 3, burn);
   const warnings = convergenceWarnings(diag, run.acceptance);
-  const attenuation = errorVarianceFraction(d.x, d.cxx);
-  if (attenuation > 0.05) {
+  const bias = predictedSlopeBias(d, b.median);
+  const sdB = 0.5 * (b.hi - b.lo);
+  if (Math.abs(bias) > 0.5 * sdB) {
     warnings.push(
-      `x uncertainties are ${(100 * attenuation).toFixed(0)}% of the variance of x: the deconvolved slope is attenuated by about that fraction; prefer the hierarchical fit`,
+      `the deconvolved slope may be biased by about ${bias.toPrecision(2)} (${(Math.abs(bias) / sdB).toFixed(1)} posterior sd): the x errors and their correlation with the y errors are not small compared with the spread of x; prefer the hierarchical fit`,
     );
   }
   return {
@@ -200,21 +203,25 @@ export function fitDeconvolved(d: DeconvolvedData, opts: DeconvolvedOptions): Re
   };
 }
 
-/** Mean x variance over the sample variance of the x means: the attenuation a flat x model suffers. */
-function errorVarianceFraction(x: Float64Array, cxx: Float64Array): number {
-  const n = x.length;
+/**
+ * Slope bias of the flat-x likelihood to first order: the vertical residual e_y - b e_x is
+ * correlated with the observed x through e_x, so the slope is off by about
+ * (mean Cxy - b mean Cxx) / Var(x_obs) (the errors-in-variables bias; Fuller 1987,
+ * Measurement Error Models, sect. 1.1; Kelly 2007, sect. 2).
+ */
+export function predictedSlopeBias(d: DeconvolvedData, b: number): number {
+  const n = d.x.length;
   let m = 0;
-  for (let i = 0; i < n; i++) m += x[i];
+  for (let i = 0; i < n; i++) m += d.x[i];
   m /= n;
-  let v = 0;
-  let e = 0;
+  let v = 0, cxx = 0, cxy = 0;
   for (let i = 0; i < n; i++) {
-    v += (x[i] - m) ** 2;
-    e += cxx[i];
+    v += (d.x[i] - m) ** 2;
+    cxx += d.cxx[i];
+    cxy += d.cxy[i];
   }
   v /= n - 1;
-  e /= n;
-  return v > 0 ? e / v : Infinity;
+  return v > 0 ? (cxy / n - (b * cxx) / n) / v : NaN;
 }
 
 /**
