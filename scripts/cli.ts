@@ -17,7 +17,10 @@ const USAGE = `usage:
   posterity check <bundle-folder>
   posterity build <bundle-folder> --out <dir> [--summaries <merged-dir>] [--quiet]
   posterity demo [--out dist] [--bundle demo-bundle] [--serve] [--port 4321] [--quiet]
-  posterity serve <dir> [--port 4321] [--base /]`;
+  posterity serve <dir> [--port 4321] [--base /]
+  posterity summarise <bundle-folder> --part I --of N --out <partials-dir>
+  posterity merge <partials-dir> --out <merged-dir>
+  posterity cluster-script <bundle-folder> --parts N [--out script.sh] [options: docs/cluster.md]`;
 
 interface Args {
   positional: string[];
@@ -97,7 +100,7 @@ async function cmdBuild(bundle: string, out: string, quiet: boolean, truthFile?:
       // a mock's true relations, shown beside the fits
       const t = JSON.parse(readFileSync(truthFile, 'utf8')) as { relations?: Record<string, { bins: { a: number; aMeanStarForming: number | null; b: number; scatter: number }[] }> };
       truth = Object.fromEntries(
-        Object.entries(t.relations ?? {}).map(([name, r]) => [name, r.bins.map((b) => ({ a: b.aMeanStarForming ?? b.a, b: b.b, s: b.scatter }))]),
+        Object.entries(t.relations ?? {}).map(([name, r]) => [name, r.bins.map((b) => ({ a: b.a, b: b.b, s: b.scatter }))]),
       );
     }
     const s = await buildRelease(resolve(bundle), { out, progress: progressPrinter(quiet), truth, summaries });

@@ -128,6 +128,7 @@ NODE=${q(o.node)}
 POSTERITY=${q(o.posterity)}
 BUNDLE=${q(o.bundle)}
 PARTS=${o.parts}
+CPUS=${o.cpus}
 WORK=${q(o.work)}
 SITE=${q(o.site)}
 PARTIALS="$WORK/partials"
@@ -136,7 +137,7 @@ LOGS="$WORK/logs"
 JOBS="$WORK/slurm/jobs.txt"
 
 summarise_part() {
-  "$NODE" "$POSTERITY" summarise "$BUNDLE" --part "$1" --of "$PARTS" --out "$PARTIALS"
+  "$NODE" "$POSTERITY" summarise "$BUNDLE" --part "$1" --of "$PARTS" --out "$PARTIALS" --workers "\${SLURM_CPUS_PER_TASK:-$CPUS}"
 }
 
 merge_and_build() {
@@ -150,6 +151,13 @@ missing_parts() {
 }
 
 self() { readlink -f "\${BASH_SOURCE[0]}"; }
+
+# the array job of the last submission, when some of its tasks are still queued or running
+active_array() {
+  local a
+  a=$(tail -n 1 "$JOBS" 2>/dev/null | cut -d' ' -f2)
+  if [ -n "$a" ] && [ -n "$(squeue -h -j "$a" -o %i 2>/dev/null)" ]; then echo "$a"; fi
+}
 
 prepare() { mkdir -p "$PARTIALS" "$LOGS" "$WORK/slurm"; }
 
@@ -191,6 +199,11 @@ case "\${1:-submit}" in
   submit) submit ;;
   resubmit)
     prepare
+    a=$(active_array)
+    if [ -n "$a" ]; then
+      echo "array job $a still has tasks queued or running: wait for it (squeue -j $a) or cancel it (scancel $a)" >&2
+      exit 1
+    fi
     m=$(missing_parts)
     if [ -z "$m" ]; then
       mj=$(submit_merge)

@@ -100,7 +100,7 @@ export function buildRelease(t: DemoTruth, params: ParamSpec[]): ReleaseConfig {
         population: 'star-forming',
         zBins: Z_BINS.slice(),
         pivot: 10,
-        methods: ['deconvolved', 'hierarchical', 'running-median', 'naive'],
+        methods: ['deconvolved', 'hierarchical', 'mixture', 'running-median', 'naive'],
         reference: 'speagle2014',
         aboveCompleteness: true,
       },
@@ -118,6 +118,7 @@ export function buildRelease(t: DemoTruth, params: ParamSpec[]): ReleaseConfig {
     ],
     populations: { kind: 'ssfr', threshold: SSFR_THRESHOLD },
     quality: { ...QUALITY },
+    site: { objectPageLimit: 50000, shardSize: 500 },
     seed: t.seed,
   };
 }

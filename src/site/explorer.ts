@@ -1,21 +1,25 @@
 /**
- * The catalogue explorer (browser only): loads `downloads/catalogue.arrow` with apache-arrow and
- * shows it as a virtualised table with sorting, id search, range filters, a flag and population
- * filter, a cone search, a column chooser, CSV export of the selection and the state in the URL.
- * Rows link to object pages through the slug mapping. Filtering and sorting only; no statistics.
+ * The catalogue explorer (browser only). Loads the compact catalogue files under
+ * `catalogue/data/` (format: `explorer-format.ts`; written by `explorer-data.ts`): the core
+ * columns first, one chunk of rows at a time, showing the first rows as soon as the first chunk
+ * has arrived; other columns are fetched when they are first shown, sorted or filtered on.
+ *
+ * A virtualised table with sorting, id search, range filters, flag and population filters, a
+ * cone search, a column chooser, CSV export of the selection, keyboard navigation between rows
+ * and the whole view in the URL. Sorting keeps one permutation per column and direction (a
+ * radix sort for float32 and integer columns), so a filter is one pass over it.
+ * Filtering and sorting only; no statistics.
  */
-import { tableFromIPC } from 'apache-arrow';
 import { slugOf } from '../lib/core/slug.ts';
 import { angularSeparationDeg, parseAngleArcsec, parseCoordinate } from '../lib/core/sky.ts';
 import { FLAG_INFO, describeFlags } from '../lib/core/flags.ts';
+import { chunkFileName, decodeChunk, type ChunkValues, type ExplorerColumn, type ExplorerManifest } from './explorer-format.ts';
 
-type Values = Float64Array | Float32Array | Int32Array | Int16Array | Uint8Array | string[] | number[];
+type Store = Float64Array | Float32Array | Int32Array | Int16Array | Uint8Array | string[];
 
-interface Col {
-  name: string;
-  unit: string;
+interface Col extends ExplorerColumn {
   numeric: boolean;
-  values: Values;
+  values: Store | null;
 }
 
 interface State {
@@ -32,7 +36,9 @@ interface State {
 
 const ROW_H = 28;
 const OVERSCAN = 12;
-const DEFAULT_COLS = ['id', 'ra', 'dec', 'redshift', 'population', 'flags'];
+/** Browsers cap an element's height (Chromium near 3.3e7 px); beyond this the scroll is scaled. */
+const MAX_SCROLL_PX = 8_000_000;
+const PARALLEL_FETCHES = 3;
 
 function el<K extends keyof HTMLElementTagNameMap>(tag: K, attrs: Record<string, string> = {}, text?: string): HTMLElementTagNameMap[K] {
   const e = document.createElement(tag);
@@ -56,8 +62,8 @@ function csvCell(s: string): string {
   return /[",\n\r]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
 }
 
-function readState(): State {
-  const p = new URLSearchParams(location.search);
+export function readState(search: string): State {
+  const p = new URLSearchParams(search);
   const ranges: Record<string, [string, string]> = {};
   for (const [k, v] of p) {
     const m = /^r\.(.+)$/.exec(k);
@@ -79,7 +85,7 @@ function readState(): State {
   };
 }
 
-function writeState(s: State): void {
+export function stateQuery(s: State): string {
   const p = new URLSearchParams();
   if (s.q) p.set('q', s.q);
   if (s.sort) p.set('sort', s.sort);
@@ -93,64 +99,162 @@ function writeState(s: State): void {
     if (lo || hi) p.set(`r.${k}`, `${lo}~${hi}`);
   }
   if (s.cols) p.set('cols', s.cols.join(','));
-  const qs = p.toString();
-  history.replaceState(null, '', qs ? `?${qs}` : location.pathname);
+  return p.toString();
+}
+
+/** Ascending permutation of `keys` (uint32, stable): LSD radix sort in two 16-bit passes. */
+function radixOrder(keys: Uint32Array, n: number): Uint32Array {
+  let a = new Uint32Array(n);
+  for (let i = 0; i < n; i++) a[i] = i;
+  let b = new Uint32Array(n);
+  const count = new Uint32Array(65536);
+  for (const shift of [0, 16]) {
+    count.fill(0);
+    for (let i = 0; i < n; i++) count[(keys[a[i]] >>> shift) & 0xffff]++;
+    let sum = 0;
+    for (let k = 0; k < 65536; k++) {
+      const c = count[k];
+      count[k] = sum;
+      sum += c;
+    }
+    for (let i = 0; i < n; i++) {
+      const r = a[i];
+      b[count[(keys[r] >>> shift) & 0xffff]++] = r;
+    }
+    [a, b] = [b, a];
+  }
+  return a;
+}
+
+/** Sortable uint32 keys of a float32 or integer column; NaN always last. */
+function sortKeys(v: Float32Array | Int32Array | Int16Array | Uint8Array, n: number, desc: boolean): Uint32Array {
+  const keys = new Uint32Array(n);
+  if (v instanceof Float32Array) {
+    const bits = new Uint32Array(v.buffer, v.byteOffset, n);
+    for (let i = 0; i < n; i++) {
+      const x = v[i];
+      if (x !== x) {
+        keys[i] = 0xffffffff;
+        continue;
+      }
+      const u = bits[i] === 0x80000000 ? 0 : bits[i]; // -0 sorts with +0
+      let k = u & 0x80000000 ? ~u >>> 0 : (u | 0x80000000) >>> 0;
+      if (desc) k = ~k >>> 0;
+      keys[i] = k === 0xffffffff ? 0xfffffffe : k;
+    }
+  } else {
+    for (let i = 0; i < n; i++) {
+      let k = (v[i] ^ 0x80000000) >>> 0;
+      if (desc) k = ~k >>> 0;
+      keys[i] = k;
+    }
+  }
+  return keys;
 }
 
 export async function startExplorer(root: HTMLElement): Promise<void> {
-  const arrowUrl = root.dataset.arrow as string;
+  const manifestUrl = new URL(root.dataset.manifest as string, document.baseURI);
   const objectsBase = root.dataset.objects as string;
   const status = root.querySelector('.explorer-status') as HTMLElement;
   const t0 = performance.now();
   status.textContent = 'Loading the catalogue…';
-  let table;
+  let manifest: ExplorerManifest;
   try {
-    const res = await fetch(arrowUrl);
+    const res = await fetch(manifestUrl);
     if (!res.ok) throw new Error(`HTTP ${res.status}`);
-    table = tableFromIPC(new Uint8Array(await res.arrayBuffer()));
+    manifest = (await res.json()) as ExplorerManifest;
   } catch (e) {
-    status.textContent = `The catalogue file could not be loaded (${(e as Error).message}); the static list below shows the first objects.`;
+    status.textContent = `The catalogue could not be loaded (${(e as Error).message}); the static list below shows the first objects.`;
     return;
   }
-  const cols: Col[] = table.schema.fields.map((f, i) => {
-    const vec = table.getChildAt(i)!;
-    const typeName = String(f.type);
-    const numeric = /^(Float|Int|Uint)/.test(typeName);
-    let values: Values;
-    if (numeric) {
-      const arr = vec.toArray() as ArrayLike<number | bigint>;
-      if (arr instanceof BigInt64Array || arr instanceof BigUint64Array) values = Array.from(arr, (b) => Number(b));
-      else values = arr as Values;
-      if (vec.nullCount > 0) {
-        const copy = Float64Array.from(values as ArrayLike<number>);
-        for (let r = 0; r < copy.length; r++) if (!vec.isValid(r)) copy[r] = NaN;
-        values = copy;
+  const N = manifest.rows;
+  const cols: Col[] = manifest.columns.map((c) => ({ ...c, numeric: c.type !== 'str' && c.type !== 'cat', values: null }));
+  const byName = new Map(cols.map((c) => [c.name, c]));
+  const groupLoaded: (Promise<void> | null)[] = manifest.groups.map(() => null);
+  /** Rows loaded of the core group (chunks arrive in order). */
+  let loaded = 0;
+
+  function allocate(c: Col): Store {
+    switch (c.type) {
+      case 'f64': return new Float64Array(N);
+      case 'f32': return new Float32Array(N);
+      case 'i32': return new Int32Array(N);
+      case 'i16': return new Int16Array(N);
+      case 'u8':
+      case 'cat': return new Uint8Array(N);
+      default: return new Array<string>(N).fill('');
+    }
+  }
+  function insert(g: number, k: number, buf: ArrayBuffer): number {
+    const { rows, columns } = decodeChunk(buf);
+    const start = k * manifest.chunkRows;
+    for (const c of cols) {
+      if (c.group !== g) continue;
+      const part = columns.get(c.name) as ChunkValues | undefined;
+      if (!part) continue;
+      if (!c.values) c.values = allocate(c);
+      if (Array.isArray(c.values)) for (let i = 0; i < rows; i++) (c.values as string[])[start + i] = (part as string[])[i];
+      else (c.values as Float64Array).set(part as Float64Array, start);
+    }
+    return rows;
+  }
+  async function fetchChunk(g: number, k: number): Promise<ArrayBuffer> {
+    const res = await fetch(new URL(chunkFileName(g, k), manifestUrl));
+    if (!res.ok) throw new Error(`${chunkFileName(g, k)}: HTTP ${res.status}`);
+    return res.arrayBuffer();
+  }
+  /** Fetch chunks [from, chunks) of a group, a few at a time, inserting each in order. */
+  async function fetchRest(g: number, from: number, onChunk: (k: number, rows: number) => void): Promise<void> {
+    const pending = new Map<number, Promise<ArrayBuffer>>();
+    let next = from;
+    const launch = () => {
+      while (pending.size < PARALLEL_FETCHES && next < manifest.chunks) {
+        pending.set(next, fetchChunk(g, next));
+        next++;
       }
-    } else {
-      values = Array.from({ length: vec.length }, (_, r) => {
-        const v = vec.get(r);
-        return v === null || v === undefined ? '' : String(v);
+    };
+    launch();
+    for (let k = from; k < manifest.chunks; k++) {
+      const buf = await (pending.get(k) as Promise<ArrayBuffer>);
+      pending.delete(k);
+      launch();
+      onChunk(k, insert(g, k, buf));
+    }
+  }
+  /** Load a whole group of columns (not the core) once; resolves when every chunk is in. */
+  function ensureGroup(g: number): Promise<void> {
+    if (g === 0) return Promise.resolve();
+    if (!groupLoaded[g]) {
+      groupLoaded[g] = fetchRest(g, 0, () => {}).then(() => {
+        sortCache.clear();
       });
     }
-    return { name: f.name, unit: f.metadata.get('unit') ?? '', numeric, values };
-  });
-  const n = table.numRows;
-  const byName = new Map(cols.map((c) => [c.name, c]));
-  const ids = (byName.get('id')?.values ?? []) as string[];
-  const slugs = ids.map((id) => slugOf(id));
-  const state = readState();
+    return groupLoaded[g] as Promise<void>;
+  }
+  const isReady = (c: Col | undefined): c is Col => !!c && c.values !== null;
 
-  // an exact id from the header search box opens that object's page
-  if (new URLSearchParams(location.search).get('go') === '1' && state.q) {
-    const hit = ids.indexOf(state.q.trim());
-    if (hit >= 0) {
-      location.replace(`${objectsBase}${slugs[hit]}/`);
+  // first chunk of the core columns
+  try {
+    loaded = insert(0, 0, await fetchChunk(0, 0));
+  } catch (e) {
+    status.textContent = `The catalogue could not be loaded (${(e as Error).message}); the static list below shows the first objects.`;
+    return;
+  }
+
+  const ids = byName.get('id')?.values as string[];
+  const state = readState(location.search);
+  const go = new URLSearchParams(location.search).get('go') === '1' && state.q.trim() !== '' ? state.q.trim() : null;
+  const goTo = (r: number) => location.replace(`${objectsBase}${slugOf(ids[r])}/`);
+  if (go) {
+    const hit = ids.indexOf(go);
+    if (hit >= 0 && hit < loaded) {
+      goTo(hit);
       return;
     }
   }
 
   const controls = root.querySelector('.explorer-controls') as HTMLElement;
-  const chooser = root.querySelector('.columns-chooser') as HTMLElement;
+  const chooser = root.querySelector('.chooser-groups') as HTMLElement;
   const viewport = root.querySelector('.explorer-viewport') as HTMLElement;
   controls.hidden = false;
   viewport.hidden = false;
@@ -170,62 +274,108 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
 
   for (const f of FLAG_INFO) flag.append(el('option', { value: String(f.bit) }, `has: ${f.label}`));
   const popCol = byName.get('population');
-  if (popCol) for (const v of [...new Set(popCol.values as string[])].sort()) pop.append(el('option', { value: v }, v));
+  if (popCol?.categories) for (const v of popCol.categories) pop.append(el('option', { value: v }, v));
   else pop.disabled = true;
-  for (const c of cols) if (c.numeric) rangeCol.append(el('option', { value: c.name }, c.name));
+  for (const c of cols) if (c.numeric) rangeCol.append(el('option', { value: c.name }, c.unit ? `${c.name} [${c.unit}]` : c.name));
 
   q.value = state.q;
   flag.value = state.flag;
   pop.value = state.pop;
   cone.value = state.cone;
   radius.value = state.radius;
-  let visible = (state.cols ?? DEFAULT_COLS).filter((c) => byName.has(c));
-  if (!visible.length) visible = cols.slice(0, 6).map((c) => c.name);
+  const params = cols.filter((c) => c.group === 0 && c.name.endsWith('_p50')).map((c) => c.name);
+  const defaults = ['id', 'ra', 'dec', 'redshift', ...params.slice(0, 2), 'population', 'flags'].filter((c) => byName.has(c));
+  let visible = (state.cols ?? defaults).filter((c) => byName.has(c));
+  if (!visible.length) visible = defaults;
 
-  // column chooser
-  const boxes = el('div');
-  for (const c of cols) {
-    const label = el('label');
-    const box = el('input', { type: 'checkbox', value: c.name });
-    (box as HTMLInputElement).checked = visible.includes(c.name);
-    box.addEventListener('change', () => {
-      const chosen = [...boxes.querySelectorAll<HTMLInputElement>('input:checked')].map((b) => b.value);
-      visible = cols.map((cc) => cc.name).filter((nm) => chosen.includes(nm));
-      state.cols = visible.join(',') === DEFAULT_COLS.filter((d) => byName.has(d)).join(',') ? null : visible;
-      renderHead();
-      renderRows(true);
-      writeState(state);
-    });
-    label.append(box, document.createTextNode(c.name));
-    boxes.append(label);
-  }
-  chooser.append(boxes);
+  // column chooser, one fieldset a group
+  const boxes: HTMLInputElement[] = [];
+  manifest.groups.forEach((g, gi) => {
+    const fs = el('fieldset');
+    fs.append(el('legend', {}, gi === 0 ? 'Loaded at once' : g.name));
+    for (const name of g.columns) {
+      const c = byName.get(name)!;
+      const label = el('label', { title: c.description || name });
+      const box = el('input', { type: 'checkbox', value: name });
+      box.checked = visible.includes(name);
+      box.addEventListener('change', () => {
+        const chosen = new Set(boxes.filter((b) => b.checked).map((b) => b.value));
+        visible = cols.map((cc) => cc.name).filter((nm) => chosen.has(nm));
+        state.cols = visible.join(',') === defaults.join(',') ? null : visible;
+        void refresh();
+      });
+      boxes.push(box);
+      label.append(box, document.createTextNode(name));
+      fs.append(label);
+    }
+    chooser.append(fs);
+  });
 
   let order = new Uint32Array(0);
+  const sortCache = new Map<string, Uint32Array>();
   const tableEl = viewport.querySelector('table') as HTMLTableElement;
   const thead = tableEl.tHead as HTMLTableSectionElement;
   const tbody = tableEl.tBodies[0];
+  let active = 0; // position in `order` of the row with the keyboard focus stop
+  let lowerIds: string[] | null = null;
 
   function renderRanges(): void {
     rangeList.textContent = '';
     for (const k of Object.keys(state.ranges).sort()) {
       const [lo, hi] = state.ranges[k];
-      const b = el('button', { type: 'button', title: `Remove the ${k} filter` }, `${lo || '−∞'} ≤ ${k} ≤ ${hi || '∞'} ✕`);
+      const b = el('button', { type: 'button', 'aria-label': `Remove the filter ${lo || '−∞'} ≤ ${k} ≤ ${hi || '∞'}` }, `${lo || '−∞'} ≤ ${k} ≤ ${hi || '∞'} ✕`);
       b.addEventListener('click', () => {
         delete state.ranges[k];
         renderRanges();
-        update();
+        void refresh();
       });
       rangeList.append(b);
     }
   }
 
+  /** The row order of a column over the loaded rows, ascending or descending, missing values last. */
+  function sortedBy(c: Col, desc: boolean): Uint32Array {
+    const key = `${c.name}:${desc ? 1 : 0}`;
+    const hit = sortCache.get(key);
+    if (hit && hit.length === loaded) return hit;
+    const n = loaded;
+    let perm: Uint32Array;
+    const v = c.values as Store;
+    if (c.type === 'f32' || c.type === 'i32' || c.type === 'i16' || c.type === 'u8' || c.type === 'cat') {
+      // categories are stored sorted, so their codes sort like their text
+      perm = radixOrder(sortKeys(v as Float32Array, n, desc), n);
+    } else {
+      perm = new Uint32Array(n);
+      for (let i = 0; i < n; i++) perm[i] = i;
+      const dir = desc ? -1 : 1;
+      if (c.type === 'f64') {
+        const x = v as Float64Array;
+        perm.sort((a, b) => {
+          const xa = x[a];
+          const xb = x[b];
+          const na = xa !== xa;
+          const nb = xb !== xb;
+          if (na || nb) return na === nb ? a - b : na ? 1 : -1;
+          return xa === xb ? a - b : (xa < xb ? -1 : 1) * dir;
+        });
+      } else {
+        const s = v as string[];
+        perm.sort((a, b) => (s[a] === s[b] ? a - b : (s[a] < s[b] ? -1 : 1) * dir));
+      }
+    }
+    sortCache.set(key, perm);
+    return perm;
+  }
+
   function compute(): string | null {
     const t = performance.now();
+    const n = loaded;
     const needle = state.q.trim().toLowerCase();
+    if (needle && !lowerIds) lowerIds = ids.map((s) => s.toLowerCase());
     const bit = state.flag === 'none' ? -1 : state.flag === 'any' ? -2 : state.flag ? Number(state.flag) : 0;
     const flags = byName.get('flags')?.values as ArrayLike<number> | undefined;
-    const popValues = popCol?.values as string[] | undefined;
+    const popCodes = popCol?.values as Uint8Array | undefined;
+    const popCode = state.pop && popCol?.categories ? popCol.categories.indexOf(state.pop) : -1;
     let coneCentre: { raDeg: number; decDeg: number } | null = null;
     let coneDeg = 0;
     let problem: string | null = null;
@@ -237,73 +387,66 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
       else coneDeg = r / 3600;
       if (problem) coneCentre = null;
     }
-    const ra = byName.get('ra')?.values as ArrayLike<number> | undefined;
-    const dec = byName.get('dec')?.values as ArrayLike<number> | undefined;
+    const ra = byName.get('ra')?.values as Float64Array | undefined;
+    const dec = byName.get('dec')?.values as Float64Array | undefined;
     const ranges = Object.entries(state.ranges)
-      .filter(([k]) => byName.get(k)?.numeric)
-      .map(([k, [lo, hi]]) => ({ v: byName.get(k)!.values as ArrayLike<number>, lo: lo === '' ? -Infinity : Number(lo), hi: hi === '' ? Infinity : Number(hi) }));
+      .map(([k, [lo, hi]]) => ({ c: byName.get(k), lo: lo === '' ? -Infinity : Number(lo), hi: hi === '' ? Infinity : Number(hi) }))
+      .filter((g) => g.c?.numeric && g.c.values)
+      .map((g) => ({ v: g.c!.values as ArrayLike<number>, lo: g.lo, hi: g.hi }));
+    const sc = byName.get(state.sort);
+    const base = isReady(sc) ? sortedBy(sc, state.desc) : null;
     const keep = new Uint32Array(n);
     let m = 0;
-    for (let r = 0; r < n; r++) {
-      if (needle && !ids[r].toLowerCase().includes(needle)) continue;
-      if (flags && bit !== 0) {
-        const f = flags[r];
-        if (bit === -1 ? f !== 0 : bit === -2 ? f === 0 : (f & bit) === 0) continue;
-      }
-      if (popValues && state.pop && popValues[r] !== state.pop) continue;
-      let ok = true;
-      for (const g of ranges) {
-        const x = g.v[r];
-        if (!(x >= g.lo && x <= g.hi)) {
-          ok = false;
-          break;
+    const filtering = needle || bit !== 0 || popCode >= 0 || ranges.length || coneCentre;
+    for (let k = 0; k < n; k++) {
+      const r = base ? base[k] : k;
+      if (filtering) {
+        if (needle && !(lowerIds as string[])[r].includes(needle)) continue;
+        if (flags && bit !== 0) {
+          const f = flags[r];
+          if (bit === -1 ? f !== 0 : bit === -2 ? f === 0 : (f & bit) === 0) continue;
+        }
+        if (popCodes && popCode >= 0 && popCodes[r] !== popCode) continue;
+        let ok = true;
+        for (const g of ranges) {
+          const x = g.v[r];
+          if (!(x >= g.lo && x <= g.hi)) {
+            ok = false;
+            break;
+          }
+        }
+        if (!ok) continue;
+        if (coneCentre && ra && dec) {
+          if (Math.abs(dec[r] - coneCentre.decDeg) > coneDeg) continue;
+          if (!(angularSeparationDeg(coneCentre.raDeg, coneCentre.decDeg, ra[r], dec[r]) <= coneDeg)) continue;
         }
       }
-      if (!ok) continue;
-      if (coneCentre && ra && dec && !(angularSeparationDeg(coneCentre.raDeg, coneCentre.decDeg, ra[r], dec[r]) <= coneDeg)) continue;
       keep[m++] = r;
     }
-    order = keep.slice(0, m);
-    const sc = byName.get(state.sort);
-    if (sc) {
-      const v = sc.values;
-      const dir = state.desc ? -1 : 1;
-      if (sc.numeric) {
-        const x = v as ArrayLike<number>;
-        order.sort((a, b) => {
-          const xa = x[a];
-          const xb = x[b];
-          const na = Number.isNaN(xa);
-          const nb = Number.isNaN(xb);
-          if (na || nb) return na === nb ? a - b : na ? 1 : -1; // missing values last
-          return xa === xb ? a - b : (xa < xb ? -1 : 1) * dir;
-        });
-      } else {
-        const s = v as string[];
-        order.sort((a, b) => (s[a] === s[b] ? a - b : (s[a] < s[b] ? -1 : 1) * dir));
-      }
-    }
-    root.dataset.lastFilterMs = (performance.now() - t).toFixed(1);
+    order = keep.subarray(0, m);
+    root.dataset.lastComputeMs = (performance.now() - t).toFixed(1);
     return problem;
   }
 
   function renderHead(): void {
     thead.textContent = '';
-    const tr = el('tr');
+    const tr = el('tr', { 'aria-rowindex': '1' });
     for (const name of visible) {
       const c = byName.get(name)!;
       const th = el('th', { scope: 'col', class: c.numeric ? 'n' : '' });
       const sorted = state.sort === name;
       th.setAttribute('aria-sort', sorted ? (state.desc ? 'descending' : 'ascending') : 'none');
-      const b = el('button', { type: 'button', title: `Sort by ${name}` }, `${name}${c.unit ? ` [${c.unit}]` : ''}${sorted ? (state.desc ? ' ▼' : ' ▲') : ''}`);
+      const b = el('button', { type: 'button', title: `Sort by ${name}${c.description ? `: ${c.description}` : ''}` }, `${name}${c.unit ? ` [${c.unit}]` : ''}${sorted ? (state.desc ? ' ▼' : ' ▲') : ''}`);
       b.addEventListener('click', () => {
+        const t = performance.now();
         if (state.sort === name) state.desc = !state.desc;
         else {
           state.sort = name;
           state.desc = false;
         }
-        renderHead();
-        update();
+        void refresh().then(() => {
+          root.dataset.lastSortMs = (performance.now() - t).toFixed(1);
+        });
       });
       th.append(b);
       tr.append(th);
@@ -311,63 +454,141 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
     thead.append(tr);
   }
 
+  // scroll geometry: rows map to scroll pixels through `scale` when the table would be too tall
+  const fullHeight = () => order.length * ROW_H;
+  const scale = () => Math.max(1, fullHeight() / MAX_SCROLL_PX);
   let lastStart = -1;
   let lastEnd = -1;
   function renderRows(force = false): void {
-    const top = viewport.scrollTop;
+    const s = scale();
+    const top = viewport.scrollTop * s;
     const height = viewport.clientHeight || 600;
-    const start = Math.max(0, Math.floor(top / ROW_H) - OVERSCAN);
+    const first = Math.floor(top / ROW_H);
+    const start = Math.max(0, first - OVERSCAN);
     const end = Math.min(order.length, Math.ceil((top + height) / ROW_H) + OVERSCAN);
     if (!force && start === lastStart && end === lastEnd) return;
     lastStart = start;
     lastEnd = end;
+    if (active < start || active >= end) active = Math.min(Math.max(first, 0), Math.max(0, order.length - 1));
     const frag = document.createDocumentFragment();
-    const spacer = (h: number) => {
+    const spacer = (hpx: number) => {
       const tr = el('tr', { 'aria-hidden': 'true', class: 'spacer' });
       const td = el('td', { colspan: String(visible.length) });
-      td.style.height = `${h}px`;
+      td.style.height = `${hpx}px`;
       td.style.padding = '0';
       td.style.border = '0';
       tr.append(td);
       return tr;
     };
-    if (start > 0) frag.append(spacer(start * ROW_H));
+    const total = fullHeight() / s;
+    const above = start * ROW_H / s;
+    const rowsPx = (end - start) * ROW_H;
+    if (above > 0) frag.append(spacer(above));
     const shown = visible.map((nm) => byName.get(nm)!);
     for (let k = start; k < end; k++) {
       const r = order[k];
-      const tr = el('tr');
+      const tr = el('tr', { 'aria-rowindex': String(k + 2) });
       tr.style.height = `${ROW_H}px`;
+      if (k === active) tr.className = 'active';
       for (const c of shown) {
-        const v = c.values[r];
         const td = el('td', { class: c.numeric ? 'n' : '' });
-        if (c.name === 'id') {
-          const a = el('a', { href: `${objectsBase}${slugs[r]}/` }, ids[r]);
+        if (!c.values) {
+          td.textContent = '…';
+        } else if (c.name === 'id') {
+          const a = el('a', { href: `${objectsBase}${slugOf(ids[r])}/`, tabindex: k === active ? '0' : '-1', 'data-pos': String(k) }, ids[r]);
           td.append(a);
+        } else if (c.type === 'cat') {
+          td.textContent = c.categories?.[(c.values as Uint8Array)[r]] ?? '';
         } else if (c.name === 'flags') {
+          const v = (c.values as Int32Array)[r];
           td.textContent = String(v);
           if (v) td.title = describeFlags(Number(v)).join(', ');
-        } else td.textContent = fmt(v);
+        } else td.textContent = fmt((c.values as ArrayLike<unknown>)[r]);
         tr.append(td);
       }
       frag.append(tr);
     }
-    if (end < order.length) frag.append(spacer((order.length - end) * ROW_H));
+    const below = total - above - rowsPx;
+    if (end < order.length && below > 0) frag.append(spacer(below));
+    // the row with the keyboard focus is redrawn: keep the focus on it
+    const hadFocus = tbody.contains(document.activeElement);
     tbody.replaceChildren(frag);
+    tableEl.setAttribute('aria-rowcount', String(order.length + 1));
+    if (hadFocus) focusActive();
   }
 
-  function update(): void {
+  function focusActive(): void {
+    tbody.querySelector<HTMLAnchorElement>(`a[data-pos="${active}"]`)?.focus({ preventScroll: true });
+  }
+
+  function moveTo(pos: number): void {
+    if (!order.length) return;
+    active = Math.max(0, Math.min(order.length - 1, pos));
+    const rowY = tableEl.offsetTop + tbody.offsetTop + (active * ROW_H) / scale();
+    const headH = thead.getBoundingClientRect().height;
+    if (rowY < viewport.scrollTop + headH) viewport.scrollTop = rowY - headH;
+    else if (rowY + ROW_H > viewport.scrollTop + viewport.clientHeight) viewport.scrollTop = rowY + ROW_H - viewport.clientHeight;
+    renderRows(true);
+    focusActive();
+  }
+
+  tbody.addEventListener('keydown', (ev) => {
+    const t = ev.target as HTMLElement;
+    if (!t.matches('a[data-pos]')) return;
+    const pos = Number(t.dataset.pos);
+    const page = Math.max(1, Math.floor((viewport.clientHeight || 600) / ROW_H) - 2);
+    const to = { ArrowDown: pos + 1, ArrowUp: pos - 1, PageDown: pos + page, PageUp: pos - page, Home: 0, End: order.length - 1 }[ev.key];
+    if (to === undefined) return;
+    ev.preventDefault();
+    moveTo(to);
+  });
+  tbody.addEventListener('focusin', (ev) => {
+    const t = ev.target as HTMLElement;
+    if (t.matches('a[data-pos]')) active = Number(t.dataset.pos);
+  });
+
+  /** Load what the view needs (columns shown, sorted or filtered on), then compute and draw. */
+  async function refresh(keepScroll = false): Promise<void> {
+    const need = new Set<number>();
+    for (const nm of [...visible, state.sort, ...Object.keys(state.ranges)]) {
+      const c = byName.get(nm);
+      if (c && !c.values && c.group !== 0) need.add(c.group);
+    }
+    if (need.size) {
+      status.textContent = 'Loading columns…';
+      renderHead();
+      renderRows(true);
+      try {
+        await Promise.all([...need].map(ensureGroup));
+      } catch (e) {
+        status.textContent = `Some columns could not be loaded (${(e as Error).message}).`;
+        return;
+      }
+    }
+    update(keepScroll);
+  }
+
+  function update(keepScroll = false): void {
+    const t = performance.now();
     const problem = compute();
-    writeState(state);
-    viewport.scrollTop = 0;
+    const qs = stateQuery(state);
+    history.replaceState(null, '', qs ? `?${qs}` : location.pathname);
+    renderHead();
+    if (!keepScroll) {
+      viewport.scrollTop = 0;
+      active = 0;
+    }
     renderRows(true);
     const exact = state.q.trim() ? ids.indexOf(state.q.trim()) : -1;
     status.textContent = '';
-    status.append(`${order.length.toLocaleString('en')} of ${n.toLocaleString('en')} objects.`);
-    if (exact >= 0) {
+    status.append(`${order.length.toLocaleString('en')} of ${N.toLocaleString('en')} objects${loaded < N ? ` (${loaded.toLocaleString('en')} loaded so far)` : ''}.`);
+    if (exact >= 0 && exact < loaded) {
       status.append(' ');
-      status.append(el('a', { href: `${objectsBase}${slugs[exact]}/` }, `Open ${ids[exact]}`));
+      status.append(el('a', { href: `${objectsBase}${slugOf(ids[exact])}/` }, `Open ${ids[exact]}`));
     }
     if (problem) status.append(` ${problem}`);
+    root.dataset.lastUpdateMs = (performance.now() - t).toFixed(1);
+    root.dataset.rows = String(order.length);
   }
 
   let timer = 0;
@@ -375,27 +596,29 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
     clearTimeout(timer);
     timer = window.setTimeout(f, 120);
   };
-  q.addEventListener('input', () => later(() => { state.q = q.value; update(); }));
-  flag.addEventListener('change', () => { state.flag = flag.value; update(); });
-  pop.addEventListener('change', () => { state.pop = pop.value; update(); });
-  const coneApply = () => later(() => { state.cone = cone.value; state.radius = radius.value; update(); });
+  q.addEventListener('input', () => later(() => { state.q = q.value; void refresh(); }));
+  flag.addEventListener('change', () => { state.flag = flag.value; void refresh(); });
+  pop.addEventListener('change', () => { state.pop = pop.value; void refresh(); });
+  const coneApply = () => later(() => { state.cone = cone.value; state.radius = radius.value; void refresh(); });
   cone.addEventListener('input', coneApply);
   radius.addEventListener('input', coneApply);
-  controls.querySelector('[name=rangeadd]')!.addEventListener('click', () => {
+  const addRange = () => {
     if (!rangeCol.value || (rangeLo.value === '' && rangeHi.value === '')) return;
     state.ranges[rangeCol.value] = [rangeLo.value.trim(), rangeHi.value.trim()];
     rangeLo.value = '';
     rangeHi.value = '';
     renderRanges();
-    update();
-  });
+    void refresh();
+  };
+  controls.querySelector('[name=rangeadd]')!.addEventListener('click', addRange);
+  for (const inp of [rangeLo, rangeHi]) inp.addEventListener('keydown', (ev) => { if (ev.key === 'Enter') { ev.preventDefault(); addRange(); } });
   viewport.addEventListener('scroll', () => requestAnimationFrame(() => renderRows()), { passive: true });
   root.querySelector('[name=csv]')!.addEventListener('click', () => {
-    const shown = visible.map((nm) => byName.get(nm)!);
+    const shown = visible.map((nm) => byName.get(nm)!).filter((c) => c.values);
     const lines = [shown.map((c) => csvCell(c.name)).join(',')];
     for (let k = 0; k < order.length; k++) {
       const r = order[k];
-      lines.push(shown.map((c) => csvCell(c.numeric ? String(c.values[r]) : String(c.values[r]))).join(','));
+      lines.push(shown.map((c) => csvCell(c.type === 'cat' ? c.categories?.[(c.values as Uint8Array)[r]] ?? '' : String((c.values as ArrayLike<unknown>)[r]))).join(','));
     }
     const blob = new Blob([lines.join('\n') + '\n'], { type: 'text/csv' });
     const a = el('a', { href: URL.createObjectURL(blob), download: 'catalogue-selection.csv' });
@@ -407,16 +630,38 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
   root.querySelector('[name=reset]')!.addEventListener('click', () => {
     Object.assign(state, { q: '', sort: '', desc: false, flag: '', pop: '', cone: '', radius: '', ranges: {}, cols: null });
     q.value = flag.value = pop.value = cone.value = radius.value = '';
-    visible = DEFAULT_COLS.filter((c) => byName.has(c));
-    for (const b of boxes.querySelectorAll<HTMLInputElement>('input')) b.checked = visible.includes(b.value);
+    visible = defaults.slice();
+    for (const b of boxes) b.checked = visible.includes(b.value);
     renderRanges();
-    renderHead();
-    update();
+    void refresh();
   });
 
   renderRanges();
-  renderHead();
-  update();
+  await refresh();
+  root.dataset.firstRowsMs = (performance.now() - t0).toFixed(0);
+
+  // the rest of the core chunks, in the background; the view is recomputed as they arrive
+  if (manifest.chunks > 1) {
+    let last = performance.now();
+    try {
+      await fetchRest(0, 1, (k, rows) => {
+        loaded += rows;
+        sortCache.clear();
+        if (go) {
+          const hit = ids.indexOf(go, k * manifest.chunkRows);
+          if (hit >= 0 && hit < loaded) goTo(hit);
+        }
+        // recompute at most a few times a second while loading, and once at the end
+        if (loaded === N || performance.now() - last > 250) {
+          last = performance.now();
+          update(true);
+        }
+      });
+    } catch (e) {
+      status.append(` The rest of the catalogue could not be loaded (${(e as Error).message}).`);
+    }
+  }
+  if (go && ids.indexOf(go) < 0) status.append(` No object has the id “${go}”.`);
   root.dataset.ready = '1';
   root.dataset.loadMs = (performance.now() - t0).toFixed(0);
 }

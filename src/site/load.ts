@@ -5,7 +5,7 @@
  * Optional parts of a release (relations, quality, mass function, outliers) return null when
  * their file is absent, so their pages can say so instead of failing.
  */
-import { existsSync, readFileSync } from 'node:fs';
+import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import type {
   MassFunctionContent,
@@ -62,6 +62,30 @@ export function objectIndex(): ObjectIndexEntry[] {
   return cached('index', () => read<ObjectIndexEntry[]>('objects/index.json', true) as ObjectIndexEntry[]);
 }
 
+/** Whether object pages are served by the one viewer page (`site.objectPages.mode === 'viewer'`). */
+export function viewerMode(): boolean {
+  return loadSite().objectPages?.mode === 'viewer';
+}
+
+/** Slugs that get a page of their own: every object in static mode, none in viewer mode. */
+export function objectPageSlugs(): string[] {
+  return viewerMode() ? [] : objectIndex().map((e) => e.slug);
+}
+
+/** The shard files of viewer mode (`objects/shards/<NNNNNN>.json`), names without folder, sorted. */
+export function shardFiles(): string[] {
+  const dir = join(contentDir(), 'objects', 'shards');
+  if (!existsSync(dir)) return [];
+  return readdirSync(dir).filter((f) => /^\d{6}\.json$/.test(f)).sort();
+}
+
+/** Bytes of one shard file (name as listed by `shardFiles`), or null. */
+export function shardBytes(name: string): Buffer | null {
+  if (!/^\d{6}\.json$/.test(name)) return null;
+  const file = join(contentDir(), 'objects', 'shards', name);
+  return existsSync(file) ? readFileSync(file) : null;
+}
+
 /** One object's content; `slug` must be a valid slug (no path can be smuggled in). */
 export function loadObject(slug: string): ObjectContent {
   if (idOfSlug(slug) === null) throw new Error(`Posterity site: "${slug}" is not an object slug`);
@@ -94,6 +118,13 @@ export function figure(path: string): string | null {
   const file = join(contentDir(), 'figures', ...path.split('/'));
   if (!existsSync(file)) return null;
   return readFileSync(file, 'utf8');
+}
+
+/** A prerendered binary figure (e.g. a PNG) from `content/figures/<path>`, or null when absent. */
+export function figureBytes(path: string): Buffer | null {
+  if (path.split('/').some((p) => p === '..' || p === '')) return null;
+  const file = join(contentDir(), 'figures', ...path.split('/'));
+  return existsSync(file) ? readFileSync(file) : null;
 }
 
 /** Whether a file exists under `content/downloads/` (copied to the site's `downloads/`). */

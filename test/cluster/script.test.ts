@@ -153,6 +153,8 @@ echo "$*" >> "$FAKE_DIR/node.log"
 case " $* " in *" --missing "*) printf '%s' "\${FAKE_MISSING:-}";; esac
 `,
     );
+    writeFileSync(join(bin, 'squeue'), `#!/bin/bash\necho "squeue $*" >> "$FAKE_DIR/squeue.log"\nprintf '%s' "\${FAKE_ACTIVE:-}"\n`);
+    chmodSync(join(bin, 'squeue'), 0o755);
     chmodSync(join(bin, 'sbatch'), 0o755);
     chmodSync(join(bin, 'fake-node'), 0o755);
     script = join(dir, 'run.sh');
@@ -189,7 +191,9 @@ case " $* " in *" --missing "*) printf '%s' "\${FAKE_MISSING:-}";; esac
     const r = run([], { SLURM_ARRAY_TASK_ID: '2', SLURM_JOB_ID: '7' });
     expect(r.status).toBe(0);
     expect(r.sbatch).toBe('');
-    expect(r.node.trim()).toBe(`${BASE.posterity} summarise ${join(dir, 'bundle')} --part 2 --of 4 --out ${work}/partials`);
+    expect(r.node.trim()).toBe(`${BASE.posterity} summarise ${join(dir, 'bundle')} --part 2 --of 4 --out ${work}/partials --workers 3`);
+    // with the CPUs Slurm gave the task
+    expect(run([], { SLURM_ARRAY_TASK_ID: '1', SLURM_CPUS_PER_TASK: '8' }).node).toContain('--part 1 --of 4 --out ' + `${work}/partials --workers 8`);
   });
 
   it('a failing task fails the job', () => {
@@ -209,6 +213,13 @@ case " $* " in *" --missing "*) printf '%s' "\${FAKE_MISSING:-}";; esac
     expect(calls).toHaveLength(2);
     expect(calls[0]).toMatch(/^sbatch --parsable --array=1,3 /);
     expect(calls[1]).toContain('--dependency=afterok:101');
+  });
+
+  it('resubmit refuses while the last array still has tasks queued or running', () => {
+    const r = run(['resubmit'], { FAKE_MISSING: '1', FAKE_ACTIVE: '101_1' });
+    expect(r.status).toBe(1);
+    expect(r.stderr).toMatch(/array job \d+ still has tasks queued or running/);
+    expect(r.sbatch).toBe('');
   });
 
   it('resubmit with every partial present submits the merge alone', () => {

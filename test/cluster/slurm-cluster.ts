@@ -66,6 +66,8 @@ export class SlurmCluster {
   static async start(opts: { timeoutMs?: number } = {}): Promise<SlurmCluster> {
     const dir = mkdtempSync(join(tmpdir(), 'posterity-slurm-'));
     const c = new SlurmCluster(dir);
+    // a test runner that exits early still stops the daemons (stop is idempotent)
+    process.once('exit', () => c.stop());
     try {
       await c.boot(opts.timeoutMs ?? 60_000);
       return c;

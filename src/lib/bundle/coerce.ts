@@ -47,12 +47,16 @@ export class ProblemSink {
   failColumn(file: string, column: string): void {
     this.failed.set(`${file}|${column}`, 'all');
   }
-  /** True when the cell (1-based row) was already reported as untypable. */
+  /** True when the cell (1-based row), or with no row the whole column, was already reported as untypable. */
   isFailed(file: string, column: string, row?: number): boolean {
     const f = this.failed.get(`${file}|${column}`);
     if (f === undefined) return false;
     if (f === 'all') return true;
     return row !== undefined && f.has(row);
+  }
+  /** The 1-based rows of a column reported as untypable ('all' for the whole column). */
+  failedRows(file: string, column: string): ReadonlySet<number> | 'all' | undefined {
+    return this.failed.get(`${file}|${column}`);
   }
 }
 
@@ -228,8 +232,8 @@ const INT64_MAX = (1n << 63n) - 1n;
 /**
  * The one kind a passed-through column has whatever the input format, so a CSV bundle and
  * the same bundle in FITS or Parquet publish the same catalogue. Text from an untyped format
- * (CSV) is typed by its values: booleans (true/false), integers (no leading zeros, within
- * int64), numbers; otherwise it stays text. Typed columns keep their kind, with every integer
+ * (CSV) is typed by its values: booleans (true/false), integers (within int64), numbers;
+ * otherwise, or when a value has leading zeros (a code such as "007"), it stays text. Typed columns keep their kind, with every integer
  * kind widened to int64 and float32 to float64 (exact).
  */
 export function normalisePassThrough(col: Column, untyped: boolean): Column {
@@ -252,6 +256,8 @@ export function normalisePassThrough(col: Column, untyped: boolean): Column {
         if (b < INT64_MIN || b > INT64_MAX) allInt = false;
       }
       if (allNum && Number.isNaN(parseNumber(t)) && !MISSING.has(low)) allNum = false;
+      // codes with leading zeros ("007") are names, not numbers
+      if (/^[+-]?0[0-9]/.test(t)) allInt = allNum = false;
       if (!allBool && !allInt && !allNum) return col;
     }
     if (nonEmpty === 0) return col;

@@ -132,8 +132,6 @@ interface Loaded {
   headers: string[];
 }
 
-const rowsWord = (n: number) => `${n} row${n === 1 ? '' : 's'}`;
-
 /**
  * Read a table and keep the columns `wanted` (by our name), mapped to our names. With
  * `warnUnknown`, every other column of the file is reported as a warning.
@@ -321,9 +319,10 @@ interface Rule {
 }
 
 function rangeCheck(v: Float64Array, rule: Rule, file: string, column: string, sink: ProblemSink): void {
-  if (sink.isFailed(file, column)) return;
+  const failed = sink.failedRows(file, column);
+  if (failed === 'all') return;
   for (let i = 0; i < v.length; i++) {
-    if (sink.isFailed(file, column, i + 1)) continue;
+    if (failed?.has(i + 1)) continue;
     const m = rule.check(v[i], i);
     if (m !== null) sink.add({ severity: rule.severity ?? 'error', file, row: i + 1, column, message: m, expected: rule.expected, got: String(v[i]) });
   }

@@ -8,7 +8,7 @@ import { cornerSpec } from './corner.ts';
 import { massSpec, redshiftSpec } from './home.ts';
 import { massFunctionSpec } from './massfunction.ts';
 import { coverageSpec, essSpec, flagsByRedshiftSpec, flagsSpec, pitSpec, pvalueSpec } from './quality.ts';
-import { relationSpec } from './relation.ts';
+import { relationPanelSpec, relationPointsSpec, relationSpec } from './relation.ts';
 import { sedSpec } from './sed.ts';
 import { skySpec } from './sky.ts';
 
@@ -16,13 +16,20 @@ export interface FigureJob {
   /** Path under `content/figures/`, forward slashes. */
   path: string;
   spec: TopLevelSpec;
+  /** Also write a PNG beside the SVG (same path, `.png`), for download and print. */
+  png?: boolean;
 }
 
 export const FIGURES = Object.freeze({
   objectSed: (slug: string) => `objects/${slug}/sed.svg`,
   objectSedMag: (slug: string) => `objects/${slug}/sed-mag.svg`,
   objectCorner: (slug: string) => `objects/${slug}/corner.svg`,
+  /** Every bin of a relation in one figure (download and print; PNG beside it). */
   relation: (name: string) => `relations/${name}.svg`,
+  /** One redshift bin of a relation (the page's small multiples). */
+  relationPanel: (name: string, bin: number) => `relations/${name}/bin-${bin}.svg`,
+  /** Static fallback of the interactive linked view. */
+  relationPoints: (name: string) => `relations/${name}/points.svg`,
   sky: 'home/sky.svg',
   redshift: 'home/redshift.svg',
   mass: 'home/mass.svg',
@@ -34,6 +41,11 @@ export const FIGURES = Object.freeze({
   qualityPit: 'quality/pit.svg',
   massFunction: 'massfunction.svg',
 });
+
+/** The PNG written beside a figure that has one. */
+export function pngOf(svgPath: string): string {
+  return svgPath.replace(/\.svg$/, '.png');
+}
 
 export function objectFigureJobs(obj: ObjectContent): FigureJob[] {
   const jobs: FigureJob[] = [];
@@ -56,7 +68,11 @@ export function siteFigureJobs(
   if (site.sky.cells.length) jobs.push({ path: FIGURES.sky, spec: skySpec(site) });
   if (site.redshiftHist.counts.length) jobs.push({ path: FIGURES.redshift, spec: redshiftSpec(site) });
   if (site.massHist.edges.length > 1) jobs.push({ path: FIGURES.mass, spec: massSpec(site) });
-  for (const r of relations) jobs.push({ path: FIGURES.relation(r.name), spec: relationSpec(r) });
+  for (const r of relations) {
+    jobs.push({ path: FIGURES.relation(r.name), spec: relationSpec(r), png: true });
+    r.bins.forEach((_, i) => jobs.push({ path: FIGURES.relationPanel(r.name, i), spec: relationPanelSpec(r, i) }));
+    if (r.points.length) jobs.push({ path: FIGURES.relationPoints(r.name), spec: relationPointsSpec(r) });
+  }
   if (quality) {
     const labels = Object.fromEntries(site.flags.map((f) => [f.name, f.label]));
     jobs.push({ path: FIGURES.qualityEss, spec: essSpec(quality, thresholds.ess) });
@@ -68,6 +84,6 @@ export function siteFigureJobs(
       jobs.push({ path: FIGURES.qualityPit, spec: pitSpec(quality) });
     }
   }
-  if (massFunction && massFunction.bins.length) jobs.push({ path: FIGURES.massFunction, spec: massFunctionSpec(massFunction) });
+  if (massFunction && massFunction.bins.length) jobs.push({ path: FIGURES.massFunction, spec: massFunctionSpec(massFunction), png: true });
   return jobs;
 }

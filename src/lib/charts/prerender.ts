@@ -12,7 +12,8 @@ import { availableParallelism } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { threadId, Worker } from 'node:worker_threads';
 import type { MassFunctionContent, ObjectContent, ObjectIndexEntry, QualityContent, RelationContent, SiteContent } from '../pipeline/content.ts';
-import { objectFigureJobs, siteFigureJobs, type FigureJob } from './figures.ts';
+import { objectFigureJobs, pngOf, siteFigureJobs, type FigureJob } from './figures.ts';
+import { canRasterise, svgToPng } from './raster.ts';
 import { renderSvg, specHash } from './render.ts';
 
 export interface PrerenderOptions {
@@ -60,13 +61,22 @@ export async function runFigureJobs(figuresDir: string, jobs: FigureJob[], force
   for (const job of jobs) {
     const file = join(figuresDir, ...job.path.split('/'));
     const hash = specHash(job.spec);
-    if (!force && (await existingHash(file)) === hash) {
+    const png = job.png && (await canRasterise()) ? join(figuresDir, ...pngOf(job.path).split('/')) : null;
+    if (!force && (await existingHash(file)) === hash && (!png || existsSync(png))) {
       cached++;
       continue;
     }
     const svg = (await renderSvg(job.spec)).replace(/^<svg/, `<svg data-spec-hash="${hash}"`);
     await mkdir(dirname(file), { recursive: true });
     const tmp = `${file}.tmp-${process.pid}-${threadId}`;
+    // the PNG first: an SVG with the current hash means its PNG is current too
+    if (png) {
+      const bytes = await svgToPng(svg);
+      if (bytes) {
+        await writeFile(tmp, bytes);
+        await rename(tmp, png);
+      }
+    }
     await writeFile(tmp, svg);
     await rename(tmp, file);
     rendered++;
@@ -123,7 +133,8 @@ export async function prerenderFigures(contentDir: string, opts: PrerenderOption
   const force = opts.force ?? false;
 
   const siteJobs = siteFigureJobs(site, relations, quality, mf, opts.thresholds ?? (site.quality ? { ess: site.quality.minEss, pvalue: site.quality.minChi2Pvalue } : undefined));
-  const slugs = index.map((e) => e.slug);
+  // viewer mode: object figures are drawn in the browser from the shards, none are prerendered
+  const slugs = site.objectPages?.mode === 'viewer' ? [] : index.map((e) => e.slug);
   const nWorkers = Math.max(1, Math.min(opts.workers ?? availableParallelism(), slugs.length));
   let rendered = 0;
   let cached = 0;

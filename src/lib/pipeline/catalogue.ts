@@ -42,6 +42,10 @@ const STATS = [
 
 const QUANTILE_RULE = 'weighted CDF with midpoint plotting positions, linear interpolation (equal weights: Hyndman and Fan type 5)';
 
+function hasMixtureRule(config: ReleaseConfig): boolean {
+  return config.relations.some((r) => r.methods.includes('mixture'));
+}
+
 function paramUcd(p: ParameterConfig): string {
   return p.ucd ?? 'stat.param';
 }
@@ -62,7 +66,7 @@ export function catalogueColumns(config: ReleaseConfig, objects: ObjectsData, re
     { name: 'chi2', type: 'double', unit: '', ucd: 'stat.fit.chi2', description: 'chi-square of the best fit, as supplied' },
     { name: 'chi2_pvalue', type: 'double', unit: '', ucd: 'stat.fit.goodness', description: 'chi-square survival probability', formula: `Q(dof/2, chi2/2), regularised upper incomplete gamma function; dof = bands used - ${config.quality.dofSubtract ?? config.parameters.length}` },
     { name: 'flags', type: 'int', unit: '', ucd: 'meta.code.qual', description: flagsDescription() },
-    { name: 'population', type: 'string', unit: '', ucd: 'src.class', description: `star-forming or quiescent, by log sSFR = log SFR - log M* above or below ${config.populations.threshold} (posterior median); empty where undetermined` },
+    { name: 'population', type: 'string', unit: '', ucd: 'src.class', description: hasMixtureRule(config) ? `star-forming or quiescent: by the main-sequence mixture (p_sequence >= 0.5) for galaxies above a redshift bin's mass-completeness limit, otherwise by log sSFR = log SFR - log M* above or below ${config.populations.threshold} (posterior medians); empty where undetermined` : `star-forming or quiescent, by log sSFR = log SFR - log M* above or below ${config.populations.threshold} (posterior medians); empty where undetermined` },
   ];
   if (hasMixture)
     cols.push({ name: 'p_sequence', type: 'double', unit: '', ucd: 'stat.probability', description: 'probability of belonging to the star-forming main sequence, from the two-component mixture fit', formula: 'sequence density / (sequence + broad component) at the posterior mean, averaged over the fit posterior' });

@@ -277,6 +277,8 @@ export interface RelationContent {
   bins: BinFit[];
   /** Binned density of all selected objects in the x-y plane (does not grow with the catalogue). */
   density: { x0: number; dx: number; y0: number; dy: number; nx: number; ny: number; counts: number[] };
+  /** The same grid per redshift bin (counts[bin][j * nx + i]), for one panel per bin; absent in older content. */
+  densityByBin?: number[][];
   /** Outliers drawn as points on top of the density. */
   outliers: { id: string; slug: string; x: number; y: number; z: number; tension: number; reason: string }[];
   /** Up to a few thousand points (id, x, y, z) for linked brushing. */

@@ -8,6 +8,7 @@ import type { SummaryTable, ObjectCharts } from './summarise.ts';
 import type { ObjectContent, ObjectIndexEntry, PhotPoint, SpectrumData } from './content.ts';
 import type { PopulationResult } from './population.ts';
 import { slugOf } from '../core/slug.ts';
+import { stringAt } from '../io/table.ts';
 import { FLAG_INFO } from '../core/flags.ts';
 import { toMicroJy } from '../core/photometry.ts';
 import { formatRaHms, formatDecDms, angularSeparationDeg } from '../core/sky.ts';
@@ -254,7 +255,7 @@ export function objectContent(ctx: ObjectContext, i: number, charts: ObjectChart
     neighbours: Array.from(ctx.neighbours[i], (j) => ({ ...link(j), sepArcsec: rn(angularSeparationDeg(objects.ra[i], objects.dec[i], objects.ra[j], objects.dec[j]) * 3600, 4) })),
     prev: i > 0 ? link(i - 1) : null,
     next: i < n - 1 ? link(i + 1) : null,
-    extra: objects.extra.map((c) => ({ name: c.name, value: String(c.values[i] ?? '') })),
+    extra: objects.extra.map((c) => ({ name: c.name, value: c.kind === 'bool' ? (c.valid && !c.valid[i] ? '' : c.values[i] ? 'true' : 'false') : stringAt(c, i) })),
     downloads: ctx.downloads(i),
   };
 }

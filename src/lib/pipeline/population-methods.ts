@@ -29,6 +29,8 @@ function declaredLogPrior(config: ReleaseConfig, name: string): ((v: number) => 
 /** The hierarchical fit on each selected object's equal-weight resample of draws. */
 export function hierarchicalIfAvailable(
   rel: RelationConfig, inp: PopulationInputs, idx: number[], ix: number, iy: number, seed: number, warnings: string[],
+  /** Completeness cut on x (the sample holds only galaxies above it): modelled in the likelihood. */
+  xMin?: number,
 ): { fit: MethodFit; raw: RelationFit } | null {
   const { pop, config } = inp;
   const m = pop.m;
@@ -53,7 +55,7 @@ export function hierarchicalIfAvailable(
     }
     offsets[s + 1] = o;
   }
-  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 16, nSteps: stepsFor(o * 16, 3e8, 400, 1500) });
+  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 16, nSteps: stepsFor(o * 16, 3e8, 400, 1500), ...(xMin !== undefined ? { selection: { xMin } } : {}) });
   let small = 0;
   for (const e of fit.effectiveDraws) if (e < 5) small++;
   if (small > 0) fit.warnings.push(`${small} of ${nSel} objects have fewer than 5 effective draws carrying the likelihood; their marginal likelihoods are noisy`);
@@ -69,6 +71,7 @@ export function hierarchicalIfAvailable(
       objectsWithFewEffectiveDraws: small,
       drawsPerObject: m,
       interimPrior: pop.hasLogPrior ? 'log_prior column' : 'declared priors',
+      selectionXMin: xMin ?? 'none',
       xModelMu: fit.xModel.mu.median,
       xModelTau: fit.xModel.tau.median,
     },

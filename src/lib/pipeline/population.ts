@@ -85,13 +85,25 @@ export function runPopulation(inp: PopulationInputs): PopulationResult {
   const completenessFor = (edges: number[]) =>
     iM >= 0 && objects.mag && magLim !== undefined ? massCompleteness(summary.p50[iM], objects.mag, objects.redshift, magLim, edges) : null;
 
+  // The two-component mixture of the main sequence gives each galaxy above the completeness
+  // limit a probability of belonging to the sequence; where it exists it replaces the hard
+  // sSFR cut for the population label, so the star-forming fits are not truncated by it.
   let mixture: Float64Array | null = null;
+  const mixtureFits = new Map<string, (MethodFit | null)[]>();
+  for (const rel of config.relations) {
+    if (!rel.methods.includes('mixture')) continue;
+    const m = sequenceMembership(rel, inp, completenessFor(rel.zBins));
+    mixtureFits.set(rel.name, m.fits);
+    if (!mixture) {
+      mixture = m.membership;
+      for (let i = 0; i < n; i++) if (Number.isFinite(mixture[i])) population[i] = mixture[i] >= 0.5 ? 'star-forming' : 'quiescent';
+    }
+  }
 
   const relations: RelationContent[] = [];
   const offsets: PopulationResult['offsets'] = [];
   for (const rel of config.relations) {
-    const res = fitRelation(rel, inp, population, completenessFor(rel.zBins), warnings);
-    if (res.membership) mixture = mixture ?? res.membership;
+    const res = fitRelation(rel, inp, population, completenessFor(rel.zBins), warnings, mixtureFits.get(rel.name));
     relations.push(res.content);
     offsets.push({ name: rel.name, offset: res.offset, tension: res.tension });
     for (let i = 0; i < n; i++) if (Math.abs(res.tension[i]) > config.quality.outlierTension) summary.flags[i] |= FLAGS.RELATION_OUTLIER;
@@ -108,15 +120,63 @@ export function runPopulation(inp: PopulationInputs): PopulationResult {
   };
 }
 
+/** Galaxies of redshift bin b with finite posterior means, and those above the bin's mass-completeness limit. */
+function binMembers(rel: RelationConfig, inp: PopulationInputs, completeness: { logMLim: number }[] | null) {
+  const { config, objects, summary } = inp;
+  const ix = config.parameters.findIndex((p) => p.name === rel.x);
+  const iy = config.parameters.findIndex((p) => p.name === rel.y);
+  const iM = roleIndex(config, 'log_mass');
+  const edges = rel.zBins;
+  const inBin: number[][] = edges.slice(1).map(() => []);
+  const aboveLimit: number[][] = edges.slice(1).map(() => []);
+  for (let i = 0; i < objects.n; i++) {
+    const b = binOf(objects.redshift[i], edges);
+    if (b < 0 || !Number.isFinite(summary.mean[ix][i]) || !Number.isFinite(summary.mean[iy][i])) continue;
+    inBin[b].push(i);
+    if (rel.aboveCompleteness && completeness && iM >= 0) {
+      const lim = completeness[b]?.logMLim;
+      if (Number.isFinite(lim) && summary.p50[iM][i] < lim) continue;
+    }
+    aboveLimit[b].push(i);
+  }
+  return { ix, iy, inBin, aboveLimit };
+}
+
+function deconvolvedData(inp: PopulationInputs, idx: number[], ix: number, iy: number) {
+  const { summary } = inp;
+  const k = summary.k;
+  const c = (i: number, r: number, q: number) => summary.cov[i * k * k + r * k + q];
+  return {
+    x: Float64Array.from(idx, (i) => summary.mean[ix][i]),
+    y: Float64Array.from(idx, (i) => summary.mean[iy][i]),
+    cxx: Float64Array.from(idx, (i) => c(i, ix, ix)),
+    cyy: Float64Array.from(idx, (i) => c(i, iy, iy)),
+    cxy: Float64Array.from(idx, (i) => c(i, ix, iy)),
+  };
+}
+
+/** Mixture fit per redshift bin on every galaxy above the completeness limit. */
+function sequenceMembership(rel: RelationConfig, inp: PopulationInputs, completeness: { logMLim: number }[] | null): { membership: Float64Array; fits: (MethodFit | null)[] } {
+  const membership = new Float64Array(inp.objects.n).fill(NaN);
+  const { ix, iy, aboveLimit } = binMembers(rel, inp, completeness);
+  const fits = aboveLimit.map((all, b) => {
+    if (all.length < 10) return null;
+    const mf = extra.mixtureFit(deconvolvedData(inp, all, ix, iy), rel.pivot, deriveSeed(inp.config.seed, rel.name, b, 'mixture'));
+    all.forEach((i, j) => (membership[i] = mf.membership[j]));
+    return mf.fit;
+  });
+  return { membership, fits };
+}
+
 function fitRelation(
   rel: RelationConfig,
   inp: PopulationInputs,
   population: string[],
   completeness: { zLo: number; zHi: number; logMLim: number }[] | null,
   warnings: string[],
-): { content: RelationContent; offset: Float64Array; tension: Float64Array; membership: Float64Array | null } {
+  mixtureFits?: (MethodFit | null)[],
+): { content: RelationContent; offset: Float64Array; tension: Float64Array } {
   const { config, objects, summary, pop } = inp;
-  const membership = rel.methods.includes('mixture') ? new Float64Array(objects.n).fill(NaN) : null;
   const n = objects.n;
   const k = summary.k;
   const ix = config.parameters.findIndex((p) => p.name === rel.x);
@@ -172,7 +232,7 @@ function fitRelation(
       bin.fits.push(methodFit(f));
       preferred = f;
     }
-    const hier = rel.methods.includes('hierarchical') ? extra.hierarchicalIfAvailable(rel, inp, idx, ix, iy, seed, warnings) : null;
+    const hier = rel.methods.includes('hierarchical') ? extra.hierarchicalIfAvailable(rel, inp, idx, ix, iy, seed, warnings, ix === iM && Number.isFinite(lim) && rel.aboveCompleteness ? lim : undefined) : null;
     if (hier) {
       bin.fits.push(hier.fit);
       preferred = hier.raw;
@@ -181,19 +241,8 @@ function fitRelation(
       const med = { x: Float64Array.from(idx, (i) => summary.p50[ix][i]), y: Float64Array.from(idx, (i) => summary.p50[iy][i]) };
       bin.fits.push(methodFit(fitNaive(med.x, med.y, rel.pivot, seed)));
     }
-    if (membership && aboveLimit[b].length >= 10) {
-      const all = aboveLimit[b];
-      const dm = {
-        x: Float64Array.from(all, (i) => xMean[i]),
-        y: Float64Array.from(all, (i) => yMean[i]),
-        cxx: Float64Array.from(all, (i) => covAt(i, ix, ix)),
-        cyy: Float64Array.from(all, (i) => covAt(i, iy, iy)),
-        cxy: Float64Array.from(all, (i) => covAt(i, ix, iy)),
-      };
-      const mf = extra.mixtureFit(dm, rel.pivot, deriveSeed(seed, 'mixture'));
-      bin.fits.push(mf.fit);
-      all.forEach((i, j) => (membership[i] = mf.membership[j]));
-    }
+    const mix = mixtureFits?.[b];
+    if (mix) bin.fits.push(mix);
     if (rel.methods.includes('running-median')) bin.running = extra.runningIfAvailable(pop, idx, ix, iy, d.x, seed);
     if (preferred) {
       const xs = new Float64Array(40);
@@ -224,7 +273,7 @@ function fitRelation(
   );
   if (rel.methods.includes('hierarchical'))
     methodNotes.push('Hierarchical: the draws of each galaxy are reweighted by the population model over the interim prior of the fit (Hogg, Myers and Bovy 2010), with a Gaussian model of the x distribution fitted jointly (in the spirit of Kelly 2007).');
-  if (membership)
+  if (mixtureFits)
     methodNotes.push('Mixture: every galaxy above the completeness limit, star-forming or not, enters a two-component model (the sequence plus a broad component, in the spirit of the outlier mixture of Hogg, Bovy and Lang 2010), so no hard sSFR cut truncates the sequence; each galaxy gets its probability of belonging to the sequence (catalogue column p_sequence).');
   if (rel.methods.includes('running-median'))
     methodNotes.push('Running median: median and 16-84% spread of y in bins of x; the bootstrap resamples both the galaxies and one posterior draw per galaxy.');
@@ -245,6 +294,12 @@ function fitRelation(
     const cy = Math.min(ny - 1, Math.floor((yMean[i] - y0) / dy));
     counts[cy * nx + cx]++;
   }
+  // the same grid per redshift bin, for the small-multiple panels
+  const densityByBin = selected.map((idx) => {
+    const c = new Array<number>(nx * ny).fill(0);
+    for (const i of idx) c[Math.min(ny - 1, Math.floor((yMean[i] - y0) / dy)) * nx + Math.min(nx - 1, Math.floor((xMean[i] - x0) / dx))]++;
+    return c;
+  });
   const outliers: RelationContent['outliers'] = [];
   const thr = config.quality.outlierTension;
   for (const i of all)
@@ -267,6 +322,7 @@ function fitRelation(
       zBins: edges,
       bins,
       density: { x0, dx, y0, dy, nx, ny, counts },
+      densityByBin,
       outliers: outliers.slice(0, 500),
       points,
       methodNotes,
@@ -279,6 +335,5 @@ function fitRelation(
     },
     offset,
     tension,
-    membership,
   };
 }

@@ -58,12 +58,14 @@ async function siteStats(dir: string): Promise<Pick<BuildSummary, 'pages' | 'fil
 }
 
 const staging = new Set<string>();
+const children = new Set<import('node:child_process').ChildProcess>();
 let handlersInstalled = false;
 
 function installSignalHandlers(): void {
   if (handlersInstalled) return;
   handlersInstalled = true;
   const cleanup = (sig: NodeJS.Signals) => {
+    for (const child of children) child.kill('SIGTERM');
     for (const dir of staging) {
       try {
         // synchronous: the process is about to exit
@@ -81,6 +83,8 @@ function installSignalHandlers(): void {
 function run(cmd: string, args: string[], env: NodeJS.ProcessEnv, log: (l: string) => void): Promise<void> {
   return new Promise((ok, fail) => {
     const child = spawn(cmd, args, { cwd: PROJECT_ROOT, env: { ...process.env, ...env }, stdio: ['ignore', 'pipe', 'pipe'] });
+    children.add(child);
+    child.on('exit', () => children.delete(child));
     let tail = '';
     const take = (b: Buffer) => {
       const s = b.toString();

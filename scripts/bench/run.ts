@@ -1,0 +1,180 @@
+/**
+ * `npm run bench`: every ratio is measured in this one run, on this machine, each task in its
+ * own process (`task.mjs`) so that peak memory is per task. Writes `bench/results/bench.md`
+ * and `bench/results/bench.json` and prints the Markdown.
+ *
+ * Options: `--sizes 10000,100000` (default), `--workers N` (default: one per core),
+ * `--no-pipeline` (skip the whole-pipeline run), `--cache DIR` (default bench/cache).
+ */
+import { spawn } from 'node:child_process';
+import { mkdir, writeFile } from 'node:fs/promises';
+import { availableParallelism, cpus, loadavg, totalmem } from 'node:os';
+import { join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { bundlePaths, DRAWS, PARAMS } from './data.ts';
+
+const ROOT = resolve(fileURLToPath(new URL('../..', import.meta.url)));
+const TASK = join(ROOT, 'scripts', 'bench', 'task.mjs');
+
+type Result = Record<string, any> & { maxRssMB: number };
+
+function task(name: string, args: string[], timeoutS = 3600): Promise<Result | { error: string }> {
+  // the whole pipeline keeps every object's corner data until the pages are written: give it room
+  const flags = name === 'pipeline' ? ['--max-old-space-size=12288'] : [];
+  return new Promise((ok) => {
+    const t0 = Date.now();
+    process.stderr.write(`  ${name} ${args.map((a) => a.replace(ROOT + '/', '')).join(' ')} ... `);
+    const child = spawn(process.execPath, [...flags, TASK, name, ...args], { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
+    let out = '';
+    let err = '';
+    child.stdout.on('data', (d) => (out += d));
+    child.stderr.on('data', (d) => (err += d));
+    const timer = setTimeout(() => child.kill('SIGKILL'), timeoutS * 1000);
+    child.on('close', (code) => {
+      clearTimeout(timer);
+      const line = out.split('\n').find((l) => l.startsWith('BENCH-RESULT '));
+      const secs = ((Date.now() - t0) / 1000).toFixed(0);
+      if (line) {
+        process.stderr.write(`${secs} s\n`);
+        ok(JSON.parse(line.slice('BENCH-RESULT '.length)));
+      } else {
+        const why = code === null ? `killed after ${timeoutS} s` : `exit ${code}: ${err.trim().split('\n').slice(-3).join(' | ')}`;
+        process.stderr.write(`failed (${why})\n`);
+        ok({ error: why });
+      }
+    });
+  });
+}
+
+const isErr = (r: unknown): r is { error: string } => !!r && typeof r === 'object' && 'error' in (r as object);
+const f = (x: number | null | undefined, d = 2) => (x === null || x === undefined || !Number.isFinite(x) ? 'n/a' : x.toFixed(d));
+
+interface Row {
+  what: string;
+  value: string;
+  target: string;
+  status: 'met' | 'missed' | 'info' | 'not measured yet' | 'failed';
+  note?: string;
+}
+
+export async function main(argv: string[]): Promise<number> {
+  const opt = (name: string) => {
+    const i = argv.indexOf(name);
+    return i >= 0 ? argv[i + 1] : undefined;
+  };
+  const sizes = (opt('--sizes') ?? '10000,100000').split(',').map(Number);
+  const workers = String(opt('--workers') ?? availableParallelism());
+  const cache = resolve(ROOT, opt('--cache') ?? 'bench/cache');
+  const doPipeline = !argv.includes('--no-pipeline');
+  const started = new Date();
+  process.stderr.write(`posterity bench: ${sizes.join(', ')} objects x ${DRAWS} draws x ${PARAMS} parameters, ${workers} workers\n`);
+
+  const raw: Record<string, unknown> = {};
+  const run = async (key: string, name: string, args: string[], timeoutS?: number) => (raw[key] = await task(name, args, timeoutS)) as Result | { error: string };
+
+  for (const n of sizes) await run(`gen.${n}`, 'gen', [cache, String(n)], 7200);
+  for (const n of sizes) {
+    const p = bundlePaths(cache, n);
+    raw[`load.${n}`] = loadavg()[0];
+    await run(`scan.arrow.${n}`, 'scan', [p.arrow]);
+    if (n === sizes[0]) await run(`group.arrow.${n}`, 'group', [p.arrow]);
+    await run(`summarise.arrow.${n}`, 'summarise', [p.arrow, workers]);
+    await run(`scan.parquet.${n}`, 'scan', [p.parquet]);
+    await run(`summarise.parquet.${n}`, 'summarise', [p.parquet, workers]);
+    await run(`duckdb.${n}`, 'duckdb', [p.parquet]);
+  }
+  await run('kernel', 'kernel', [bundlePaths(cache, sizes[0]).arrow, '400']);
+  await run('deconvolved', 'deconvolved', ['100000']);
+  await run('hierarchical', 'hierarchical', ['20000', '256'], 1200);
+  if (doPipeline) await run('pipeline', 'pipeline', [bundlePaths(cache, sizes[0]).full, '10'], 3600);
+
+  // ---- the report ------------------------------------------------------------------------
+  const get = (key: string): Result | null => (isErr(raw[key]) || !raw[key] ? null : (raw[key] as Result));
+  const rows: Row[] = [];
+  const big = sizes[sizes.length - 1], small = sizes[0];
+  const ratio = (a: Result | null, b: Result | null) => (a && b ? a.seconds / b.seconds : NaN);
+  for (const n of sizes) {
+    for (const fmt of ['arrow', 'parquet'] as const) {
+      const s = get(`summarise.${fmt}.${n}`), sc = get(`scan.${fmt}.${n}`);
+      const r = ratio(s, sc);
+      const isTarget = n === big && n >= 100000;
+      rows.push({
+        what: `summaries / raw scan, ${fmt === 'arrow' ? 'Arrow IPC' : 'Parquet'}, ${n} objects`,
+        value: `${f(r)}x (${f(s?.seconds, 1)} s / ${f(sc?.seconds, 1)} s)`,
+        target: isTarget ? '<= 1.5x' : '',
+        status: !s || !sc ? 'failed' : isTarget ? (r <= 1.5 ? 'met' : 'missed') : 'info',
+      });
+    }
+    const g = get(`group.arrow.${n}`), sc = get(`scan.arrow.${n}`);
+    if (n === small) rows.push({ what: `decode + group into objects, no statistics / raw scan, Arrow IPC, ${n} objects`, value: `${f(ratio(g, sc))}x (${f(g?.seconds, 1)} s)`, target: '', status: g && sc ? 'info' : 'failed' });
+    rows.push({ what: `machine load while measuring ${n} objects (1-minute load average, ${cpus().length} cores)`, value: String((raw[`load.${n}`] as number | undefined)?.toFixed(1) ?? 'n/a'), target: '', status: 'info', note: 'other work on the shared machine slows every row alike; ratios are more robust than times' });
+    const s = get(`summarise.parquet.${n}`), d = get(`duckdb.${n}`);
+    rows.push({ what: `summaries / DuckDB weighted mean and std per object, Parquet, ${n} objects`, value: `${f(ratio(s, d))}x (DuckDB ${f(d?.seconds, 1)} s, ${d?.threads ?? '?'} threads)`, target: '', status: s && d ? 'info' : 'failed' });
+    for (const fmt of ['arrow', 'parquet'] as const) {
+      const m = get(`summarise.${fmt}.${n}`);
+      const isTarget = n === big && n >= 100000;
+      rows.push({
+        what: `peak resident memory, summarise step, ${fmt === 'arrow' ? 'Arrow IPC' : 'Parquet'}, ${n} objects`,
+        value: m ? `${f(m.maxRssMB / 1024, 2)} GB` : 'n/a',
+        target: isTarget ? '< 1.5 GB' : '',
+        status: !m ? 'failed' : isTarget ? (m.maxRssMB < 1536 ? 'met' : 'missed') : 'info',
+      });
+    }
+    const ld = get(`summarise.arrow.${n}`);
+    rows.push({ what: `bundle load without samples (objects; SHA-256 of every input), ${n} objects`, value: `${f(ld?.loadSeconds, 1)} s`, target: '', status: ld ? 'info' : 'failed', note: 'not part of the summaries time above' });
+  }
+  if (sizes.length > 1) {
+    const ex = (a: number, b: number) => Math.log(b / a) / Math.log(big / small);
+    for (const fmt of ['arrow', 'parquet'] as const) {
+      const s0 = get(`summarise.${fmt}.${small}`), s1 = get(`summarise.${fmt}.${big}`);
+      const c0 = get(`scan.${fmt}.${small}`), c1 = get(`scan.${fmt}.${big}`);
+      rows.push({
+        what: `growth exponent ${small} -> ${big}, ${fmt}: time (summaries; raw scan), peak memory`,
+        value: s0 && s1 && c0 && c1 ? `time ${f(ex(s0.seconds, s1.seconds))}; scan ${f(ex(c0.seconds, c1.seconds))}; memory ${f(ex(s0.maxRssMB, s1.maxRssMB))}` : 'n/a',
+        target: 'time 1 (linear); memory < 1',
+        status: s0 && s1 ? 'info' : 'failed',
+      });
+    }
+  }
+  const dc = get('deconvolved');
+  rows.push({ what: 'deconvolved relation fit, 10^5 objects', value: dc ? `${f(dc.seconds, 2)} s (${dc.nWalkers} walkers x ${dc.nSteps} steps)` : 'n/a', target: '< 5 s', status: !dc ? 'failed' : dc.seconds < 5 ? 'met' : 'missed' });
+  const hi = get('hierarchical');
+  rows.push({ what: 'hierarchical relation fit, 2x10^4 objects x 256 draws', value: hi ? `${f(hi.seconds, 1)} s (${hi.nWalkers} walkers x ${hi.nSteps} steps)` : `n/a (${(raw.hierarchical as { error?: string })?.error ?? ''})`, target: '< 60 s', status: !hi ? 'failed' : hi.seconds < 60 ? 'met' : 'missed' });
+  const pl = get('pipeline');
+  if (doPipeline) {
+    rows.push({ what: `whole runPipeline, ${small} objects (samples loaded whole by the loader)`, value: pl ? `${f(pl.seconds, 0)} s, peak ${f(pl.maxRssMB / 1024, 2)} GB` : 'n/a', target: '', status: pl ? 'info' : 'failed', note: pl ? `stages (s): ${Object.entries(pl.stages as Record<string, number>).map(([k, v]) => `${k} ${v.toFixed(0)}`).join(', ')}` : undefined });
+    rows.push({ what: 'object-page figures (SVG prerender) per object', value: pl?.chartSecondsPerObject != null ? `${f(pl.chartSecondsPerObject * 1000, 0)} ms (${pl.figuresRendered} figures for 10 objects)` : `n/a${pl?.chartError ? ` (${pl.chartError})` : ''}`, target: '', status: pl?.chartSecondsPerObject != null ? 'info' : 'failed' });
+  }
+  const k = get('kernel');
+  if (k) {
+    rows.push({
+      what: `per-object cost of the summary steps (${k.objects} objects, one thread)`,
+      value: Object.entries(k.msPerObject as Record<string, number>).map(([name, ms]) => `${name}: ${ms.toFixed(2)} ms`).join('; '),
+      target: '',
+      status: 'info',
+      note: `corner data JSON: ${(k.chartJsonBytesPerObject / 1024).toFixed(0)} KB per object`,
+    });
+  }
+  rows.push({ what: 'object page build time / trivial Astro page', value: '', target: '<= 2x', status: 'not measured yet', note: 'to be added by the site engineer' });
+  rows.push({ what: 'bytes per object page (HTML plus its data, gzipped)', value: '', target: '<= 40 KB', status: 'not measured yet', note: 'to be added by the site engineer' });
+
+  const machine = `${cpus().length} x ${cpus()[0]?.model ?? 'cpu'}, ${(totalmem() / 2 ** 30).toFixed(0)} GB, Node ${process.version}`;
+  const md = [
+    '# Posterity benchmark',
+    '',
+    `Run ${started.toISOString()} on ${machine}; ${workers} summary workers; every ratio measured in this run. Bundles: the demo generator, ${DRAWS} draws x ${PARAMS} parameters per object (samples: 8 float32 parameters, float64 weight and log prior, float32 log likelihood, string id), cached under bench/cache/.`,
+    '',
+    '| measurement | value | target | status | note |',
+    '| --- | --- | --- | --- | --- |',
+    ...rows.map((r) => `| ${r.what} | ${r.value} | ${r.target} | ${r.status} | ${r.note ?? ''} |`),
+    '',
+    'Raw scan: `readTableBatches` over the columns the summaries read (id, 8 parameters, weight, log prior), summing every value (ids: their lengths). Summaries: `summariseAll` on a bundle loaded without samples, streaming the file, without corner data. DuckDB: `read_parquet` grouped by id, weighted mean and one-pass weighted standard deviation of the 8 parameters.',
+    '',
+  ].join('\n');
+  const dir = join(ROOT, 'bench', 'results');
+  await mkdir(dir, { recursive: true });
+  await writeFile(join(dir, 'bench.md'), md);
+  await writeFile(join(dir, 'bench.json'), JSON.stringify({ started: started.toISOString(), machine, workers: Number(workers), sizes, rows, raw }, null, 2) + '\n');
+  process.stdout.write(md);
+  return rows.some((r) => r.status === 'failed') ? 1 : 0;
+}
