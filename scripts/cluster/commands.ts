@@ -1,8 +1,8 @@
 /**
  * The cluster verbs of the `posterity` command line: `summarise` (one part of a bundle),
  * `merge` (all parts into the summaries `build --summaries` reads) and `cluster-script`
- * (a Slurm job-array script). Argument checks and exit codes only; the work is done in
- * `src/lib/pipeline/partials.ts`. Exit codes: 0 done, 1 input problem, 2 usage.
+ * (a Slurm job-array script, `slurm.ts`). Argument checks and exit codes only; the work is
+ * done in `src/lib/pipeline/summarise-partition.ts`. Exit codes: 0 done, 1 input problem, 2 usage.
  */
 import { existsSync, statSync } from 'node:fs';
 import { chmod, rename, writeFile } from 'node:fs/promises';
@@ -18,7 +18,7 @@ export interface CliArgs {
   flags: Record<string, string | boolean>;
 }
 
-export const CLUSTER_USAGE = `  posterity summarise <bundle-folder> --part I --of N --out <partials-dir> [--quiet]
+export const CLUSTER_USAGE = `  posterity summarise <bundle-folder> --part I --of N --out <partials-dir> [--workers W] [--quiet]
   posterity merge <partials-dir> --out <merged-dir> [--quiet]
   posterity merge <partials-dir> --missing --of N [--bundle <bundle-folder>]
   posterity cluster-script <bundle-folder> --parts N [--out script.sh] [--work <dir>] [--site <dir>]

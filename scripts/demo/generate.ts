@@ -459,7 +459,7 @@ function stripUndefined(c: { name: string; kind: string; values: unknown }): Col
 
 export const FORMULAS = {
   massFunction: 'phi(log M) = ln(10) phi*(z) (M/M*)^(alpha+1) exp(-M/M*) per dex, log10 phi*(z) = logPhiStar0 + dLogPhiStarDz z [Mpc^-3 dex^-1]',
-  quiescentFraction: 'f_q = floor + (1 - floor) / (1 + exp(-(log M - (logMq0 + dLogMqDz z)) / width))',
+  quiescentFraction: 'f_q = F(z) + (1 - F(z)) / (1 + exp(-(log M - (logMq0 + dLogMqDz z)) / width)), F(z) = floor0 exp(-z / floorZScale)',
   massToLight: 'm_sel = DM(z) - 2.5 log10(1+z) + m10 + dMdz z - 2.5 (log M - 10) + quiescentOffset [quiescent] + N(0, scatter)',
   mainSequence: 'log SFR = a(z) + b (log M - 10) + N(0, scatter), a(z) = a0 - aT t(z), t = age of the universe [Gyr]; quiescent: + quiescentOffset + N(0, quiescentScatter)',
   dust: 'A_V = c + d (log M - 10) + N(0, scatter), truncated at 0 (star-forming); |N(0, quiescentSigma)| (quiescent)',

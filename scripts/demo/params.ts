@@ -24,7 +24,7 @@ export interface ParamSpec {
 const CORE: ParamSpec[] = [
   { name: 'log_mstar', label: 'log M* [M☉]', unit: 'log(solMass)', ucd: 'phys.mass', role: 'log_mass', description: 'log10 of the stellar mass (Chabrier IMF)', min: 5.5, max: 13.0, sigma0: 0.07 },
   { name: 'log_sfr', label: 'log SFR [M☉/yr]', unit: 'log(solMass/yr)', ucd: 'phys.SFR', role: 'log_sfr', description: 'log10 of the star-formation rate averaged over the last 100 Myr', min: -5.0, max: 4.0, sigma0: 0.18 },
-  { name: 'av', label: 'A_V [mag]', unit: 'mag', ucd: 'phys.absorption.gal', role: 'dust_av', description: 'V-band attenuation of the stellar light (Calzetti et al. 2000 curve)', min: 0.0, max: 4.0, sigma0: 0.12 },
+  { name: 'av', label: 'A_V [mag]', unit: 'mag', ucd: 'phys.absorption;em.opt.V', role: 'dust_av', description: 'V-band attenuation of the stellar light (Calzetti et al. 2000 curve)', min: 0.0, max: 4.0, sigma0: 0.12 },
   { name: 'log_age', column: 'lg_age_yr', label: 'log age [yr]', unit: 'log(yr)', ucd: 'time.age', role: 'log_age', description: 'log10 of the time since the onset of star formation', min: 7.0, max: 10.15, sigma0: 0.15 },
 ];
 

@@ -31,7 +31,7 @@ export const QUALITY = {
   outlierTension: 3,
 } as const;
 
-export const SSFR_THRESHOLD = -10.5;
+export const SSFR_THRESHOLD = -10.3;
 export const RELEASE_DATE = '2026-12-01';
 export const VERSION = '1.0.0';
 
@@ -141,10 +141,10 @@ function describe(t: DemoTruth, params: ParamSpec[]): string {
   L.push(`- Every galaxy is fitted with the Chabrier (2003) IMF.`);
   L.push('', '## Population', '');
   L.push(`- **Stellar mass function** (Schechter 1976, per dex): φ(log M) = ln(10) φ*(z) (M/M*)^(α+1) exp(−M/M*), with log M* = ${f(h.smf.logMstar)}, α = ${f(h.smf.alpha)}, and log φ*(z) = ${f(h.smf.logPhiStar0)} ${sgn(h.smf.dLogPhiStarDz)} z (Mpc⁻³ dex⁻¹). Redshifts follow dV/dz times the number density.`);
-  L.push(`- **Quiescent fraction**: f_q = ${f(h.quiescentFraction.floor)} + ${f(1 - h.quiescentFraction.floor)} / (1 + exp(−(log M − (${f(h.quiescentFraction.logMq0)} ${sgn(h.quiescentFraction.dLogMqDz)} z)) / ${f(h.quiescentFraction.width)})), the constant term standing for quenched dwarfs. ${t.planted.quiescent} of the ${c.objects} catalogue galaxies are quiescent (column \`population_true\`).`);
+  L.push(`- **Quiescent fraction**: f_q = F(z) + (1 − F(z)) / (1 + exp(−(log M − (${f(h.quiescentFraction.logMq0)} ${sgn(h.quiescentFraction.dLogMqDz)} z)) / ${f(h.quiescentFraction.width)})), with F(z) = ${f(h.quiescentFraction.floor0)} exp(−z / ${f(h.quiescentFraction.floorZScale, 1)}) for quenched dwarfs. ${t.planted.quiescent} of the ${c.objects} catalogue galaxies are quiescent (column \`population_true\`).`);
   L.push(`- **Mass-to-light relation** (selection magnitude): m = DM(z) − 2.5 log10(1+z) ${sgn(h.massToLight.m10)} ${sgn(h.massToLight.dMdz)} z − 2.5 (log M − 10) + ${f(h.massToLight.quiescentOffset)} [quiescent], with a Gaussian scatter of ${f(h.massToLight.scatter)} mag; DM is the distance modulus.`);
   L.push(`- **Main sequence** (star-forming): log SFR = a(z) + b (log M − 10) + N(0, s), with a(z) = ${f(ms.a0)} − ${f(ms.aT, 3)} t(z), t(z) the age of the universe in Gyr (the shape of Speagle et al. 2014, our own numbers), b = ${f(ms.b)}, s = ${f(ms.scatter)} dex.`);
-  L.push(`- Quiescent galaxies sit ${f(-ms.quiescentOffset)} dex below the main sequence with a scatter of ${f(ms.quiescentScatter)} dex.`);
+  L.push(`- Quiescent galaxies sit ${f(-ms.quiescentOffset)} dex below the main sequence with a scatter of ${f(ms.quiescentScatter)} dex. The release calls a galaxy quiescent when its log sSFR is below ${f(SSFR_THRESHOLD, 1)}; with these numbers that cut separates the two populations at every redshift, except for quenched dwarfs, which lie close to it.`);
   L.push(`- **Dust**: star-forming A_V = ${f(h.dust.c)} + ${f(h.dust.d)} (log M − 10) + N(0, ${f(h.dust.scatter)}) mag, truncated at zero, which biases it high below log M ≈ ${f(10 + (2 * h.dust.scatter - h.dust.c) / h.dust.d, 1)} (where the mean falls below two scatters); quiescent A_V = |N(0, ${f(h.dust.quiescentSigma)})|.`);
   L.push(`- **Age** (time since the onset of star formation, tied to the formation epoch): age = f t_H(z) with t_H the age of the universe; star-forming log f ~ N(${f(h.age.sfLogFrac)} + ${f(h.age.sfLogFracSlope)} (log M − 10), ${f(h.age.sfLogFracScatter)}), f ≤ 0.9; quiescent f uniform in [${h.age.qFracMin}, ${h.age.qFracMax}]; never younger than 50 Myr.`);
   if (params.length > 4) {

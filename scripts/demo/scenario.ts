@@ -29,7 +29,7 @@ export const Z_BINS = [0.1, 0.5, 1.0, 1.5, 2.0, 3.0];
 
 export interface Hyper {
   smf: { logPhiStar0: number; dLogPhiStarDz: number; logMstar: number; alpha: number };
-  quiescentFraction: { floor: number; logMq0: number; dLogMqDz: number; width: number };
+  quiescentFraction: { floor0: number; floorZScale: number; logMq0: number; dLogMqDz: number; width: number };
   massToLight: { m10: number; dMdz: number; quiescentOffset: number; scatter: number };
   mainSequence: { a0: number; aT: number; b: number; scatter: number; pivot: number; quiescentOffset: number; quiescentScatter: number };
   dust: { c: number; d: number; scatter: number; pivot: number; quiescentSigma: number };
@@ -50,7 +50,7 @@ export function drawHyper(rng: Rng): Hyper {
       logMstar: r2(around(rng, 10.8, 0.05)),
       alpha: r2(around(rng, -1.35, 0.05)),
     },
-    quiescentFraction: { floor: 0.05, logMq0: r2(around(rng, 10.45, 0.05)), dLogMqDz: r2(around(rng, 0.3, 0.05)), width: 0.25 },
+    quiescentFraction: { floor0: 0.06, floorZScale: 0.5, logMq0: r2(around(rng, 10.45, 0.05)), dLogMqDz: r2(around(rng, 0.45, 0.05)), width: 0.25 },
     massToLight: { m10: r2(around(rng, -21.1, 0.1)), dMdz: r2(around(rng, -0.25, 0.03)), quiescentOffset: r2(around(rng, 0.7, 0.05)), scatter: 0.3 },
     mainSequence: {
       a0: r2(around(rng, 1.8, 0.05)),
@@ -58,7 +58,7 @@ export function drawHyper(rng: Rng): Hyper {
       b: r2(around(rng, 0.8, 0.05)),
       scatter: r2(around(rng, 0.3, 0.02)),
       pivot: 10,
-      quiescentOffset: r2(around(rng, -1.3, 0.1)),
+      quiescentOffset: r2(around(rng, -1.45, 0.05)),
       quiescentScatter: 0.35,
     },
     dust: { c: r2(around(rng, 1.2, 0.05)), d: r2(around(rng, 0.45, 0.05)), scatter: r2(around(rng, 0.25, 0.02)), pivot: 10, quiescentSigma: 0.2 },
@@ -97,10 +97,11 @@ export function schechterPerDex(h: Hyper, logM: number, z: number): number {
   return Math.LN10 * phiStar * Math.pow(x, h.smf.alpha + 1) * Math.exp(-x);
 }
 
-/** Quiescent fraction: a floor (quenched dwarfs) plus a logistic step in log M whose midpoint rises with redshift. */
+/** Quiescent fraction: a floor (quenched dwarfs, fading with z) plus a logistic step in log M whose midpoint rises with z. */
 export function quiescentFraction(h: Hyper, logM: number, z: number): number {
   const q = h.quiescentFraction;
-  return q.floor + (1 - q.floor) / (1 + Math.exp(-(logM - (q.logMq0 + q.dLogMqDz * z)) / q.width));
+  const floor = q.floor0 * Math.exp(-z / q.floorZScale);
+  return floor + (1 - floor) / (1 + Math.exp(-(logM - (q.logMq0 + q.dLogMqDz * z)) / q.width));
 }
 
 /**

@@ -184,7 +184,7 @@ export function renderObject(main: HTMLElement, o: ObjectContent, total: number)
       )
     : h('p', null, 'No photometry is available for this object.');
 
-  main.replaceChildren(
+  const parts: Child[] = [
     h('nav', { class: 'breadcrumbs', 'aria-label': 'Breadcrumbs' }, h('ol', null, h('li', null, link(PATHS.home, 'Release')), h('li', null, link(PATHS.catalogue, 'Catalogue')), h('li', { 'aria-current': 'page' }, o.id))),
     h('h1', null, o.id),
     h(
@@ -270,7 +270,8 @@ export function renderObject(main: HTMLElement, o: ObjectContent, total: number)
         o.extra.length > 0 && h('dl', { class: 'facts' }, o.extra.flatMap((e) => [h('dt', null, e.name), h('dd', null, e.value)])),
       ),
     ),
-  );
+  ];
+  main.replaceChildren(...(parts.filter((x) => x !== null && x !== undefined && x !== false) as (Node | string)[]));
 
   const jobs: Promise<void>[] = [];
   if (hasSed) {

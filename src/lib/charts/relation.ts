@@ -41,6 +41,12 @@ export function shortCitation(label: string): string {
   return head.length > 48 ? head.slice(0, 47) + '…' : head;
 }
 
+/** A reference label split into its citation and its note (the pipeline writes "<citation> at z = <z> (<note>)"). */
+export function splitReference(label: string): { citation: string; z: string | null; note: string | null } {
+  const m = /^(.*?) at z = ([-0-9.]+) \((.*)\)$/s.exec(label);
+  return m ? { citation: m[1], z: m[2], note: m[3] } : { citation: label, z: null, note: null };
+}
+
 /** The line series a relation can draw, in legend order, with their style. */
 export function relationSeries(rel: RelationContent): { name: string; colour: string; dash: number[] }[] {
   const methods: string[] = [];
@@ -97,8 +103,8 @@ type Layer = Record<string, unknown>;
 /** Layers and title of one redshift bin's panel. */
 function panel(rel: RelationContent, binIndex: number, opts: RelationPanelOptions): { spec: Layer; parts: string[] } {
   const b: BinFit = rel.bins[binIndex];
-  const width = opts.width ?? 340;
-  const height = opts.height ?? 260;
+  const width = opts.width ?? 380;
+  const height = opts.height ?? 285;
   const legend = opts.legend ?? false;
   const { xDomain, yDomain, xTitle, yTitle } = frame(rel);
   const series = relationSeries(rel);
@@ -224,7 +230,6 @@ export function relationPanelSpec(rel: RelationContent, binIndex: number, opts: 
   return {
     $schema: SCHEMA,
     ...spec,
-    title: { ...(spec.title as object), text: `${rel.title}, ${zBinLabel(b)}` },
     description: `${rel.title} in ${zBinLabel(b)} (${rel.y.label} against ${rel.x.label}): ${parts.join('; ') || 'nothing to draw'}.`,
     config: baseConfig(),
     resolve: { scale: { opacity: 'independent' } },

@@ -84,7 +84,7 @@ export function catalogueColumns(config: ReleaseConfig, objects: ObjectsData, re
   for (const r of relations) {
     const rel = config.relations.find((x) => x.name === r)!;
     const y = config.parameters.find((p) => p.name === rel.y)!;
-    cols.push({ name: `${r}_offset`, type: 'double', unit: y.unit, ucd: `arith.diff;${paramUcd(y)}`, description: `offset of ${y.name} from the ${rel.title} fit in the object's redshift bin`, formula: 'y - (a + b (x - pivot)) at the posterior mean' });
+    cols.push({ name: `${r}_offset`, type: 'double', unit: y.unit, ucd: `${paramUcd(y)};arith.diff`, description: `offset of ${y.name} from the ${rel.title} fit in the object's redshift bin`, formula: 'y - (a + b (x - pivot)) at the posterior mean' });
     cols.push({ name: `${r}_tension`, type: 'double', unit: '', ucd: 'stat.value', description: `offset from the ${rel.title} in units of the combined intrinsic scatter and projected posterior spread`, formula: 'offset / sqrt(s^2 + Cyy - 2 b Cxy + b^2 Cxx)' });
   }
   for (const p of config.parameters)

@@ -55,7 +55,7 @@ export function hierarchicalIfAvailable(
     }
     offsets[s + 1] = o;
   }
-  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 16, nSteps: stepsFor(o * 16, 3e8, 400, 1500), ...(xMin !== undefined ? { selection: { xMin } } : {}) });
+  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 12, nSteps: stepsFor(o * 12, 1.2e8, 300, 1500), ...(xMin !== undefined ? { selection: { xMin } } : {}) });
   let small = 0;
   for (const e of fit.effectiveDraws) if (e < 5) small++;
   if (small > 0) fit.warnings.push(`${small} of ${nSel} objects have fewer than 5 effective draws carrying the likelihood; their marginal likelihoods are noisy`);

@@ -1,13 +1,15 @@
 /**
  * Deconvolved linear relation from each object's posterior mean and 2x2 covariance, and the
- * naive least-squares fit on point estimates shown beside it for comparison.
+ * naive least-squares fit on point estimates shown beside it for comparison; both optionally
+ * with the within-bin redshift term c dz of `linear.ts`.
  */
 import { PosterityError, problem } from '../problems.ts';
 import { deriveSeed, makeRng } from '../random.ts';
 import { sampleEnsemble } from './ensemble.ts';
 import { chainDiagnostics, summariseChain, thinChain } from './diagnostics.ts';
-import { weightedLeastSquares } from './leastsquares.ts';
-import { MAX_BAND_DRAWS, type RelationFit } from './linear.ts';
+import { leastSquaresWithCovariate, weightedLeastSquares } from './leastsquares.ts';
+import { MAX_BAND_DRAWS, type Estimate, type RelationFit } from './linear.ts';
+import { cholesky } from './optimise.ts';
 import { startAtMode } from './start.ts';
 import { convergenceWarnings } from './warnings.ts';
 
@@ -19,6 +21,12 @@ export interface DeconvolvedData {
   cxx: Float64Array;
   cyy: Float64Array;
   cxy: Float64Array;
+  /**
+   * Optional covariate, each object's redshift minus the bin centre, z - zc (taken as known
+   * exactly). When given, the fits add c dz to the mean relation and report c; a is then the
+   * relation at the bin centre.
+   */
+  dz?: Float64Array;
 }
 
 export interface DeconvolvedOptions {
@@ -38,6 +46,7 @@ function validate(d: DeconvolvedData): number {
     }
   }
   if (n < 3) throw new PosterityError(problem({ message: 'deconvolved fit needs at least 3 objects', expected: '>= 3', got: String(n) }));
+  if (d.dz) validateCovariate(d.dz, n, 'deconvolved fit');
   for (let i = 0; i < n; i++) {
     const { x, y, cxx, cyy, cxy } = { x: d.x[i], y: d.y[i], cxx: d.cxx[i], cyy: d.cyy[i], cxy: d.cxy[i] };
     const finite = Number.isFinite(x) && Number.isFinite(y) && Number.isFinite(cxx) && Number.isFinite(cyy) && Number.isFinite(cxy);
@@ -57,18 +66,47 @@ function validate(d: DeconvolvedData): number {
 }
 
 /**
- * Log-likelihood of (a, b, s) for y = a + b (x - pivot) with Gaussian intrinsic scatter s in y:
- * sum_i -1/2 [ln(2 pi V_i) + (y_i - a - b (x_i - pivot))^2 / V_i], V_i = s^2 + Cyy_i - 2 b Cxy_i
- * + b^2 Cxx_i, the variance of the vertical residual (Hogg, Bovy & Lang 2010, arXiv:1008.4686,
- * eq. 32, projected vertically instead of orthogonally, with correlated x-y uncertainties).
+ * Checks a per-object covariate column: one finite value per object, not all equal (a constant
+ * dz would make c and a degenerate). Shared by the deconvolved, mixture and hierarchical fits.
  */
-export function deconvolvedLogLikelihood(d: DeconvolvedData, pivot: number, a: number, b: number, s: number): number {
+export function validateCovariate(dz: Float64Array, n: number, what: string): void {
+  if (dz.length !== n) {
+    throw new PosterityError(problem({ message: `${what}: dz must have one value per object`, column: 'dz', expected: String(n), got: String(dz.length) }));
+  }
+  for (let i = 0; i < n; i++) {
+    if (!Number.isFinite(dz[i])) {
+      throw new PosterityError(problem({ message: `${what}: dz (z - zc) is not finite`, column: 'dz', row: i + 1, got: String(dz[i]) }));
+    }
+  }
+  let lo = Infinity, hi = -Infinity;
+  for (let i = 0; i < n; i++) {
+    if (dz[i] < lo) lo = dz[i];
+    if (dz[i] > hi) hi = dz[i];
+  }
+  if (!(hi > lo)) {
+    throw new PosterityError(
+      problem({ message: `${what}: dz (z - zc) is the same for every object, so its coefficient is undefined; leave dz out`, column: 'dz', got: String(lo) }),
+    );
+  }
+}
+
+/**
+ * Log-likelihood of (a, b, s[, c]) for y = a + b (x - pivot) [+ c dz] with Gaussian intrinsic
+ * scatter s in y: sum_i -1/2 [ln(2 pi V_i) + (y_i - a - b (x_i - pivot) - c dz_i)^2 / V_i],
+ * V_i = s^2 + Cyy_i - 2 b Cxy_i + b^2 Cxx_i, the variance of the vertical residual (Hogg, Bovy &
+ * Lang 2010, arXiv:1008.4686, eq. 32, projected vertically instead of orthogonally, with
+ * correlated x-y uncertainties). The covariate dz is known exactly, so it only shifts the mean;
+ * `c` is ignored when the data have no dz.
+ */
+export function deconvolvedLogLikelihood(d: DeconvolvedData, pivot: number, a: number, b: number, s: number, c = 0): number {
   let acc = 0;
   const s2 = s * s;
+  const dz = d.dz;
   for (let i = 0; i < d.x.length; i++) {
     const v = s2 + d.cyy[i] - 2 * b * d.cxy[i] + b * b * d.cxx[i];
     if (!(v > 0)) return -Infinity;
-    const r = d.y[i] - a - b * (d.x[i] - pivot);
+    let r = d.y[i] - a - b * (d.x[i] - pivot);
+    if (dz) r -= c * dz[i];
     acc += Math.log(2 * Math.PI * v) + (r * r) / v;
   }
   return -0.5 * acc;
@@ -130,6 +168,88 @@ export function marginalPosterior(d: DeconvolvedData, pivot: number): (theta: Fl
 }
 
 /**
+ * As `marginalPosterior` for y = a + b (x - pivot) + c dz: with flat priors on a and c the
+ * likelihood is Gaussian in (a, c) jointly, so both are marginalised analytically (a weighted
+ * linear regression of r_i = y_i - ybar - b dx_i on [1, dz_i] with weights w_i = 1/V_i; e.g.
+ * Press et al. 2007, §15.4). With M = [[S, Sz], [Sz, Szz]] (S = sum w, Sz = sum w dz',
+ * Szz = sum w dz'^2, dz' = dz - mean dz) and q = (sum w r, sum w dz' r), the log posterior of
+ * (b, ln s) is -1/2 [sum ln V_i + sum w r^2 - q^T M^-1 q + ln det M] + priors, and
+ * (a, c) | b, s ~ N(M^-1 q, M^-1) (moved back from dz' to dz = 0, the bin centre). The blob
+ * receives (mean a, mean c, L11, L21, L22), the lower Cholesky factor of that 2 x 2 covariance.
+ * Three more multiply-adds per object than without the covariate.
+ */
+export function marginalPosteriorWithCovariate(d: DeconvolvedData, pivot: number): (theta: Float64Array, blob: Float64Array) => number {
+  const dzIn = d.dz;
+  if (!dzIn) throw new PosterityError(problem({ message: 'marginalPosteriorWithCovariate needs dz' }));
+  const n = d.x.length;
+  let ybar = 0, zbar = 0;
+  for (let i = 0; i < n; i++) {
+    ybar += d.y[i];
+    zbar += dzIn[i];
+  }
+  ybar /= n;
+  zbar /= n;
+  const dx = new Float64Array(n);
+  const yc = new Float64Array(n);
+  const zc = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    dx[i] = d.x[i] - pivot;
+    yc[i] = d.y[i] - ybar;
+    zc[i] = dzIn[i] - zbar;
+  }
+  const { cxx, cyy, cxy } = d;
+  return (theta, blob) => {
+    const b = theta[0];
+    const lnS = theta[1];
+    if (!Number.isFinite(b) || !(lnS > -50 && lnS < 50)) return -Infinity;
+    const s2 = Math.exp(2 * lnS);
+    let sw = 0, swz = 0, swzz = 0, swr = 0, swzr = 0, swr2 = 0, sumLog = 0, prod = 1;
+    const twoB = 2 * b;
+    const b2 = b * b;
+    for (let i = 0; i < n; i++) {
+      const v = s2 + cyy[i] - twoB * cxy[i] + b2 * cxx[i];
+      if (!(v > 0)) return -Infinity;
+      const w = 1 / v;
+      const r = yc[i] - b * dx[i];
+      const wr = w * r;
+      const wz = w * zc[i];
+      sw += w;
+      swz += wz;
+      swzz += wz * zc[i];
+      swr += wr;
+      swzr += wz * r;
+      swr2 += wr * r;
+      prod *= v;
+      if (prod > 1e150 || prod < 1e-150) {
+        sumLog += Math.log(prod);
+        prod = 1;
+      }
+    }
+    sumLog += Math.log(prod);
+    const det = sw * swzz - swz * swz;
+    if (!(det > 0)) return -Infinity;
+    // M^-1 = [[Szz, -Sz], [-Sz, S]] / det
+    const ma = (swzz * swr - swz * swzr) / det;
+    const mc = (sw * swzr - swz * swr) / det;
+    const q = swr2 - (ma * swr + mc * swzr);
+    if (blob.length >= 5) {
+      // covariance of (a at dz' = 0, c), then of (a at dz = 0) = a' - c zbar
+      const saa = swzz / det, sac = -swz / det, scc = sw / det;
+      const vaa = saa - 2 * zbar * sac + zbar * zbar * scc;
+      const vac = sac - zbar * scc;
+      const l11 = Math.sqrt(vaa);
+      const l21 = vac / l11;
+      blob[0] = ybar + ma - mc * zbar;
+      blob[1] = mc;
+      blob[2] = l11;
+      blob[3] = l21;
+      blob[4] = Math.sqrt(Math.max(scc - l21 * l21, 0));
+    }
+    return -0.5 * (sumLog + q + Math.log(det)) - 1.5 * Math.log1p(b2) + lnS;
+  };
+}
+
+/**
  * Deconvolved fit of y = a + b (x - pivot) + N(0, s^2) from posterior means and covariances
  * (likelihood `deconvolvedLogLikelihood`; priors and the analytic marginalisation of a in
  * `marginalPosterior`). (b, ln s) is sampled with the affine-invariant ensemble sampler
@@ -144,6 +264,7 @@ export function marginalPosterior(d: DeconvolvedData, pivot: number): (theta: Fl
  */
 export function fitDeconvolved(d: DeconvolvedData, opts: DeconvolvedOptions): RelationFit {
   const n = validate(d);
+  if (d.dz) return fitDeconvolvedWithCovariate(d, d.dz, n, opts);
   const { pivot, seed } = opts;
   const nWalkers = opts.nWalkers ?? 12;
   const nSteps = opts.nSteps ?? 600;
@@ -183,13 +304,7 @@ export function fitDeconvolved(d: DeconvolvedData, opts: DeconvolvedOptions): Re
   const [a, b, s] = summariseChain(chain, nSteps, nWalkers, 3, burn);
   const diag = chainDiagnostics(chain, nSteps, nWalkers, 3, burn);
   const warnings = convergenceWarnings(diag, run.acceptance);
-  const bias = predictedSlopeBias(d, b.median);
-  const sdB = 0.5 * (b.hi - b.lo);
-  if (Math.abs(bias) > 0.5 * sdB) {
-    warnings.push(
-      `the deconvolved slope may be biased by about ${bias.toPrecision(2)} (${(Math.abs(bias) / sdB).toFixed(1)} posterior sd): the x errors and their correlation with the y errors are not small compared with the spread of x; prefer the hierarchical fit`,
-    );
-  }
+  biasWarning(d, b, warnings);
   return {
     method: 'deconvolved',
     n,
@@ -203,11 +318,104 @@ export function fitDeconvolved(d: DeconvolvedData, opts: DeconvolvedOptions): Re
   };
 }
 
+function biasWarning(d: DeconvolvedData, b: Estimate, warnings: string[]): void {
+  const bias = predictedSlopeBias(d, b.median);
+  const sdB = 0.5 * (b.hi - b.lo);
+  if (Math.abs(bias) > 0.5 * sdB) {
+    warnings.push(
+      `the deconvolved slope may be biased by about ${bias.toPrecision(2)} (${(Math.abs(bias) / sdB).toFixed(1)} posterior sd): the x errors and their correlation with the y errors are not small compared with the spread of x${d.dz ? ' at fixed dz' : ''}; prefer the hierarchical fit`,
+    );
+  }
+}
+
+/**
+ * `fitDeconvolved` with the redshift term: (b, ln s) sampled as without it, (a, c) marginalised
+ * analytically (`marginalPosteriorWithCovariate`) and drawn exactly from their joint Gaussian
+ * conditional at each stored position. Started from three-column least squares.
+ */
+function fitDeconvolvedWithCovariate(d: DeconvolvedData, dz: Float64Array, n: number, opts: DeconvolvedOptions): RelationFit {
+  if (n < 4) throw new PosterityError(problem({ message: 'deconvolved fit with dz needs at least 4 objects', expected: '>= 4', got: String(n) }));
+  const { pivot, seed } = opts;
+  const nWalkers = opts.nWalkers ?? 12;
+  const nSteps = opts.nSteps ?? 600;
+  const burn = Math.floor(nSteps / 5);
+  const logPost = marginalPosteriorWithCovariate(d, pivot);
+  const scratch = new Float64Array(0);
+  const lp = (t: Float64Array): number => logPost(t, scratch);
+
+  const ols = leastSquaresWithCovariate(d.x, d.y, pivot, dz);
+  let meanErr = 0;
+  for (let i = 0; i < n; i++) meanErr += d.cyy[i] - 2 * ols.b * d.cxy[i] + ols.b * ols.b * d.cxx[i];
+  meanErr /= n;
+  const residVar = ols.chi2 / (n - 3);
+  const s0 = Math.sqrt(Math.max(residVar - meanErr, 0.01 * residVar, 1e-12));
+  const seB = Math.sqrt(ols.cov[4]) || 1e-3;
+  const rng = makeRng(deriveSeed(seed, 'deconvolved', 'start'));
+  const start = startAtMode(
+    lp,
+    Float64Array.of(ols.b, Math.log(s0)),
+    Float64Array.of(3 * seB, 0.3),
+    Float64Array.of(0.1 * seB, 0.1 / Math.sqrt(n)),
+    nWalkers,
+    rng,
+  );
+
+  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim: 2, nSteps, seed: deriveSeed(seed, 'deconvolved', 'ensemble'), blobDim: 5 });
+  const blobs = run.blobs as Float64Array;
+  const m = nSteps * nWalkers;
+  // columns (a, b, s, c): c last, after the parameters of the fit without the covariate
+  const chain = new Float64Array(m * 4);
+  const rngA = makeRng(deriveSeed(seed, 'deconvolved', 'intercept'));
+  for (let i = 0; i < m; i++) {
+    const o = 5 * i;
+    const z1 = rngA.normal();
+    const z2 = rngA.normal();
+    chain[4 * i] = blobs[o] + blobs[o + 2] * z1;
+    chain[4 * i + 1] = run.chain[2 * i];
+    chain[4 * i + 2] = Math.exp(run.chain[2 * i + 1]);
+    chain[4 * i + 3] = blobs[o + 1] + blobs[o + 3] * z1 + blobs[o + 4] * z2;
+  }
+  const [a, b, s, c] = summariseChain(chain, nSteps, nWalkers, 4, burn);
+  const diag = chainDiagnostics(chain, nSteps, nWalkers, 4, burn);
+  const warnings = convergenceWarnings(diag, run.acceptance, ['a', 'b', 's', 'c']);
+  biasWarning(d, b, warnings);
+  const { draws, drawsC } = splitDraws(thinChain(chain, nSteps, nWalkers, 4, burn, MAX_BAND_DRAWS), 4, 3);
+  return {
+    method: 'deconvolved',
+    n,
+    pivot,
+    a,
+    b,
+    s,
+    c,
+    diagnostics: { ...diag, acceptance: run.acceptance, nWalkers, nSteps, burn },
+    draws,
+    drawsC,
+    warnings,
+  };
+}
+
+/** Splits thinned rows of `dim` values into the (a, b, s) rows of `draws` (columns 0-2) and c (column `cCol`). */
+export function splitDraws(thin: Float64Array, dim: number, cCol: number): { draws: Float64Array; drawsC: Float64Array } {
+  const k = thin.length / dim;
+  const draws = new Float64Array(3 * k);
+  const drawsC = new Float64Array(k);
+  for (let i = 0; i < k; i++) {
+    draws[3 * i] = thin[dim * i];
+    draws[3 * i + 1] = thin[dim * i + 1];
+    draws[3 * i + 2] = thin[dim * i + 2];
+    drawsC[i] = thin[dim * i + cCol];
+  }
+  return { draws, drawsC };
+}
+
 /**
  * Slope bias of the flat-x likelihood to first order: the vertical residual e_y - b e_x is
  * correlated with the observed x through e_x, so the slope is off by about
  * (mean Cxy - b mean Cxx) / Var(x_obs) (the errors-in-variables bias; Fuller 1987,
- * Measurement Error Models, sect. 1.1; Kelly 2007, sect. 2).
+ * Measurement Error Models, sect. 1.1; Kelly 2007, sect. 2). With the covariate dz, Var(x_obs)
+ * is the variance of x left after its least-squares regression on dz (the slope is estimated
+ * from that part of x alone; Frisch-Waugh-Lovell theorem, e.g. Wooldridge, ch. 3).
  */
 export function predictedSlopeBias(d: DeconvolvedData, b: number): number {
   const n = d.x.length;
@@ -220,6 +428,18 @@ export function predictedSlopeBias(d: DeconvolvedData, b: number): number {
     cxx += d.cxx[i];
     cxy += d.cxy[i];
   }
+  const dz = d.dz;
+  if (dz) {
+    let zm = 0;
+    for (let i = 0; i < n; i++) zm += dz[i];
+    zm /= n;
+    let szz = 0, sxz = 0;
+    for (let i = 0; i < n; i++) {
+      szz += (dz[i] - zm) ** 2;
+      sxz += (dz[i] - zm) * (d.x[i] - m);
+    }
+    if (szz > 0) v -= (sxz * sxz) / szz;
+  }
   v /= n - 1;
   return v > 0 ? (cxy / n - (b * cxx) / n) / v : NaN;
 }
@@ -229,9 +449,12 @@ export function predictedSlopeBias(d: DeconvolvedData, b: number): number {
  * posterior medians), ignoring every uncertainty, with the usual standard errors (Press et al.
  * 2007, Numerical Recipes 3rd ed., §15.2) and s = sqrt(RSS / (n - 2)), the total residual
  * scatter (intrinsic plus measurement), with standard error s / sqrt(2 (n - 2)). Estimates are
- * median ± one standard error; `draws` come from the Gaussian approximation (seeded).
+ * median ± one standard error; `draws` come from the Gaussian approximation (seeded). With
+ * `dz` (z - zc per object) it is the three-column least squares of y on [1, x - pivot, dz]
+ * (`leastSquaresWithCovariate`), n - 3 degrees of freedom, and reports c.
  */
-export function fitNaive(x: Float64Array, y: Float64Array, pivot: number, seed = 0): RelationFit {
+export function fitNaive(x: Float64Array, y: Float64Array, pivot: number, seed = 0, dz?: Float64Array): RelationFit {
+  if (dz) return fitNaiveWithCovariate(x, y, pivot, seed, dz);
   const fit = weightedLeastSquares(x, y, pivot);
   const n = fit.n;
   const sA = Math.sqrt(fit.varA);
@@ -259,6 +482,49 @@ export function fitNaive(x: Float64Array, y: Float64Array, pivot: number, seed =
     s: { median: s, lo: s - sS, hi: s + sS },
     diagnostics: {},
     draws,
+    warnings: ['ordinary least squares on point estimates: ignores every uncertainty, so its slope is biased when x is uncertain; shown for comparison only'],
+  };
+}
+
+function fitNaiveWithCovariate(x: Float64Array, y: Float64Array, pivot: number, seed: number, dz: Float64Array): RelationFit {
+  validateCovariate(dz, x.length, 'naive fit');
+  const fit = leastSquaresWithCovariate(x, y, pivot, dz);
+  const n = fit.n;
+  const se = [Math.sqrt(fit.cov[0]), Math.sqrt(fit.cov[4]), Math.sqrt(fit.cov[8])];
+  const s = Math.sqrt(fit.chi2 / (n - 3));
+  const sS = s / Math.sqrt(2 * (n - 3));
+  const l = cholesky(fit.cov, 3);
+  const rng = makeRng(deriveSeed(seed, 'naive'));
+  const k = MAX_BAND_DRAWS;
+  const draws = new Float64Array(3 * k);
+  const drawsC = new Float64Array(k);
+  const mean = [fit.a, fit.b, fit.c];
+  const z = new Float64Array(3);
+  const v = new Float64Array(3);
+  for (let i = 0; i < k; i++) {
+    for (let j = 0; j < 3; j++) z[j] = rng.normal();
+    for (let r = 0; r < 3; r++) {
+      let acc = 0;
+      if (l) for (let j = 0; j <= r; j++) acc += l[3 * r + j] * z[j];
+      v[r] = mean[r] + acc; // without a factor (exact fit, zero residuals) the draws sit at the estimate
+    }
+    draws[3 * i] = v[0];
+    draws[3 * i + 1] = v[1];
+    draws[3 * i + 2] = Math.abs(s + sS * rng.normal());
+    drawsC[i] = v[2];
+  }
+  const est = (m: number, e: number): Estimate => ({ median: m, lo: m - e, hi: m + e });
+  return {
+    method: 'naive',
+    n,
+    pivot,
+    a: est(fit.a, se[0]),
+    b: est(fit.b, se[1]),
+    s: est(s, sS),
+    c: est(fit.c, se[2]),
+    diagnostics: {},
+    draws,
+    drawsC,
     warnings: ['ordinary least squares on point estimates: ignores every uncertainty, so its slope is biased when x is uncertain; shown for comparison only'],
   };
 }

@@ -1,7 +1,8 @@
 /**
  * Hierarchical (population) fit of y = a + b (x - pivot) + N(0, s^2) from each object's
  * posterior draws, reweighted by the population model over the interim prior the draws were
- * made under (Hogg, Myers & Bovy 2010, ApJ 725, 2166).
+ * made under (Hogg, Myers & Bovy 2010, ApJ 725, 2166); optionally with the within-bin redshift
+ * term c dz of `linear.ts`.
  */
 import { PosterityError, problem } from '../problems.ts';
 import { deriveSeed, makeRng } from '../random.ts';
@@ -9,7 +10,8 @@ import { normalCdf } from '../stats/special.ts';
 import { chainDiagnostics, summariseChain, thinChain } from './diagnostics.ts';
 import { objectMoments, validateDraws, type ObjectDraws } from './draws.ts';
 import { sampleEnsemble } from './ensemble.ts';
-import { weightedLeastSquares } from './leastsquares.ts';
+import { validateCovariate } from './deconvolved.ts';
+import { leastSquaresWithCovariate, weightedLeastSquares } from './leastsquares.ts';
 import { MAX_BAND_DRAWS, type Estimate, type RelationFit } from './linear.ts';
 import { nelderMead } from './optimise.ts';
 import { startAtMode } from './start.ts';
@@ -18,6 +20,11 @@ import { convergenceWarnings } from './warnings.ts';
 export interface HierarchicalData extends ObjectDraws {
   /** Natural log of the interim prior density the fitter used, at each draw. */
   logPrior: Float64Array;
+  /**
+   * Optional covariate, one value per object (not per draw): its redshift minus the bin centre,
+   * z - zc, taken as known. When given, the mean relation gets + c dz and the fit reports c.
+   */
+  dz?: Float64Array;
 }
 
 export interface HierarchicalOptions {
@@ -62,6 +69,8 @@ function needPrior(detail: string, row?: number): never {
 interface Terms {
   t: Float64Array;
   offsets: Int32Array;
+  /** Per kept object: dz (zeros without the covariate). */
+  dz: Float64Array;
   n: number;
   maxK: number;
   objectsSubsampled: number;
@@ -72,6 +81,7 @@ function buildTerms(d: HierarchicalData, n: number, xMin: number, maxDraws: numb
   const rng = makeRng(deriveSeed(seed, 'hierarchical', 'subsample'));
   const xs: number[] = [];
   const offsets = [0];
+  const dzKept: number[] = [];
   let objectsSubsampled = 0;
   let dropped = 0;
   let maxK = 0;
@@ -126,28 +136,32 @@ function buildTerms(d: HierarchicalData, n: number, xMin: number, maxDraws: numb
     }
     for (let k = 0; k < keepX.length; k++) xs.push(keepX[k], keepY[k], keepC[k]);
     offsets.push(offsets[offsets.length - 1] + keepX.length);
+    dzKept.push(d.dz ? d.dz[i] : 0);
     maxK = Math.max(maxK, keepX.length);
   }
-  return { t: Float64Array.from(xs), offsets: Int32Array.from(offsets), n: offsets.length - 1, maxK, objectsSubsampled, dropped };
+  return { t: Float64Array.from(xs), offsets: Int32Array.from(offsets), dz: Float64Array.from(dzKept), n: offsets.length - 1, maxK, objectsSubsampled, dropped };
 }
 
 /**
- * Log posterior of theta = (a, b, ln s, mu, ln tau). Population model: true x ~ N(mu, tau^2)
- * truncated to x > xMin when a selection is given, y | x ~ N(a + b (x - pivot), s^2) (a single
- * Gaussian in x, the K = 1 case of Kelly 2007, ApJ 665, 1489, fitted jointly). Each object's
+ * Log posterior of theta = (a, b, ln s, mu, ln tau[, c]). Population model: true x ~ N(mu, tau^2)
+ * truncated to x > xMin when a selection is given, y | x ~ N(a + b (x - pivot) [+ c dz_i], s^2)
+ * (a single Gaussian in x, the K = 1 case of Kelly 2007, ApJ 665, 1489, fitted jointly; the
+ * redshift term is a linear covariate of the mean, one known dz per object, so it costs one
+ * multiply-add per object, not per draw, and the x model is unchanged). Each object's
  * marginal likelihood is the importance-sampling estimate of Hogg, Myers & Bovy (2010, eq. 9)
  * L_i = sum_k w_ik f(x_ik, y_ik | theta) / pi_ik, with weights normalised per object, summed
  * by log-sum-exp. The selection renormalises f by P(x > xMin) = Phi((mu - xMin) / tau).
- * Priors: flat in a, mu; flat in the angle arctan b, p(b) ∝ (1 + b^2)^(-3/2) (Hogg, Bovy &
+ * Priors: flat in a, c, mu; flat in the angle arctan b, p(b) ∝ (1 + b^2)^(-3/2) (Hogg, Bovy &
  * Lang 2010, sect. 3); flat in s > 0 and tau > 0 (hence the + ln s + ln tau Jacobians).
  */
-function makeLogPosterior(terms: Terms, pivot: number, xMin: number): (theta: Float64Array) => number {
-  const { t, offsets, n } = terms;
+function makeLogPosterior(terms: Terms, pivot: number, xMin: number, hasC: boolean): (theta: Float64Array) => number {
+  const { t, offsets, n, dz } = terms;
   const v = new Float64Array(terms.maxK);
   const hasCut = xMin > -Infinity;
   return (theta) => {
     const a = theta[0], b = theta[1], lnS = theta[2], mu = theta[3], lnTau = theta[4];
-    if (!(lnS > -30 && lnS < 30 && lnTau > -30 && lnTau < 30) || !Number.isFinite(a) || !Number.isFinite(b) || !Number.isFinite(mu)) return -Infinity;
+    const c = hasC ? theta[5] : 0;
+    if (!(lnS > -30 && lnS < 30 && lnTau > -30 && lnTau < 30) || !Number.isFinite(a) || !Number.isFinite(b) || !Number.isFinite(mu) || !Number.isFinite(c)) return -Infinity;
     const is2 = Math.exp(-2 * lnS);
     const it2 = Math.exp(-2 * lnTau);
     const ap = a - b * pivot; // a + b (x - pivot) = ap + b x
@@ -155,10 +169,11 @@ function makeLogPosterior(terms: Terms, pivot: number, xMin: number): (theta: Fl
     for (let i = 0; i < n; i++) {
       const lo = offsets[i];
       const k = offsets[i + 1] - lo;
+      const api = hasC ? ap + c * dz[i] : ap;
       let m = -Infinity;
       for (let j = 0, o = 3 * lo; j < k; j++, o += 3) {
         const x = t[o];
-        const r = t[o + 1] - ap - b * x;
+        const r = t[o + 1] - api - b * x;
         const u = x - mu;
         const val = t[o + 2] - 0.5 * (r * r * is2 + u * u * it2);
         v[j] = val;
@@ -188,6 +203,8 @@ function makeLogPosterior(terms: Terms, pivot: number, xMin: number): (theta: Fl
  */
 interface Setup {
   terms: Terms;
+  /** 5, or 6 with the covariate (c last). */
+  dim: number;
   logPost: (theta: Float64Array) => number;
   x0: Float64Array;
   step: Float64Array;
@@ -214,6 +231,8 @@ function setup(objs: HierarchicalData, opts: HierarchicalOptions): Setup {
   const maxDraws = opts.maxDraws ?? 64;
   const xMin = opts.selection?.xMin ?? -Infinity;
   const warnings: string[] = [];
+  const dz = objs.dz;
+  if (dz) validateCovariate(dz, n0, 'hierarchical fit');
   const terms = buildTerms(objs, n0, xMin, maxDraws, seed);
   if (terms.dropped > 0) {
     warnings.push(`${terms.dropped} object(s) have no posterior draw above the selection cut x > ${xMin} and were left out`);
@@ -221,11 +240,14 @@ function setup(objs: HierarchicalData, opts: HierarchicalOptions): Setup {
   if (terms.n < 5) {
     throw new PosterityError(problem({ message: 'the hierarchical fit needs at least 5 objects with draws above the selection cut', expected: '>= 5', got: String(terms.n) }));
   }
-  const logPost = makeLogPosterior(terms, pivot, xMin);
+  const logPost = makeLogPosterior(terms, pivot, xMin, dz !== undefined);
 
-  // start: least squares on posterior means, scatter and x spread from the moments
+  // start: least squares on posterior means (with dz, the three-column fit), scatter and x spread from the moments
   const mom = objectMoments(objs);
-  const ols = weightedLeastSquares(mom.x, mom.y, pivot);
+  const plane = dz ? leastSquaresWithCovariate(mom.x, mom.y, pivot, dz) : undefined;
+  const ols = plane
+    ? { a: plane.a, b: plane.b, chi2: (plane.chi2 * (n0 - 2)) / (n0 - 3), varA: plane.cov[0], varB: plane.cov[4] }
+    : weightedLeastSquares(mom.x, mom.y, pivot);
   let meanProj = 0, meanCxx = 0, mx = 0;
   for (let i = 0; i < n0; i++) {
     meanProj += mom.cyy[i] - 2 * ols.b * mom.cxy[i] + ols.b * ols.b * mom.cxx[i];
@@ -244,12 +266,22 @@ function setup(objs: HierarchicalData, opts: HierarchicalOptions): Setup {
   const seB = Math.sqrt(ols.varB) || 1e-3;
   const seA = Math.sqrt(ols.varA) || 1e-3;
   const rn = Math.sqrt(terms.n);
+  const x0 = [ols.a, ols.b, Math.log(s0), mx, Math.log(tau0)];
+  const step = [2 * seA, 3 * seB, 0.3, tau0 / rn, 0.2];
+  const h = [0.1 * seA, 0.1 * seB, 0.2 / rn, (0.1 * tau0) / rn, 0.2 / rn];
+  if (plane) {
+    const seC = Math.sqrt(plane.cov[8]) || 1e-3;
+    x0.push(plane.c);
+    step.push(2 * seC);
+    h.push(0.1 * seC);
+  }
   return {
     terms,
+    dim: x0.length,
     logPost,
-    x0: Float64Array.of(ols.a, ols.b, Math.log(s0), mx, Math.log(tau0)),
-    step: Float64Array.of(2 * seA, 3 * seB, 0.3, tau0 / rn, 0.2),
-    h: Float64Array.of(0.1 * seA, 0.1 * seB, 0.2 / rn, (0.1 * tau0) / rn, 0.2 / rn),
+    x0: Float64Array.from(x0),
+    step: Float64Array.from(step),
+    h: Float64Array.from(h),
     n0,
     xMin,
     pivot,
@@ -271,11 +303,13 @@ function presolve(st: Setup): { x0: Float64Array; step: Float64Array; maxEval: n
   const stride = Math.ceil(terms.n / PRESOLVE_OBJECTS);
   const offsets = [0];
   const parts: Float64Array[] = [];
+  const dz: number[] = [];
   let maxK = 0;
   for (let i = 0; i < terms.n; i += stride) {
     const lo = terms.offsets[i];
     const hi = terms.offsets[i + 1];
     parts.push(terms.t.subarray(3 * lo, 3 * hi));
+    dz.push(terms.dz[i]);
     offsets.push(offsets[offsets.length - 1] + (hi - lo));
     maxK = Math.max(maxK, hi - lo);
   }
@@ -285,8 +319,8 @@ function presolve(st: Setup): { x0: Float64Array; step: Float64Array; maxEval: n
     t.set(p, o);
     o += p.length;
   }
-  const sub: Terms = { t, offsets: Int32Array.from(offsets), n: offsets.length - 1, maxK, objectsSubsampled: 0, dropped: 0 };
-  const lp = makeLogPosterior(sub, st.pivot, st.xMin);
+  const sub: Terms = { t, offsets: Int32Array.from(offsets), dz: Float64Array.from(dz), n: offsets.length - 1, maxK, objectsSubsampled: 0, dropped: 0 };
+  const lp = makeLogPosterior(sub, st.pivot, st.xMin, st.dim === 6);
   const min = nelderMead((x) => -lp(x), st.x0, st.step, { maxEval: 600, fTol: 1e-6 });
   // the full-sample posterior is narrower by about sqrt(n / n_sub)
   const shrink = Math.sqrt(sub.n / terms.n);
@@ -294,9 +328,12 @@ function presolve(st: Setup): { x0: Float64Array; step: Float64Array; maxEval: n
   return { x0: min.x, step, maxEval: 200 };
 }
 
-/** Laplace approximation of the hierarchical posterior: mode and standard deviations of (a, b, s, mu, tau). */
+/** Laplace approximation of the hierarchical posterior: mode and standard deviations of (a, b, s, mu, tau[, c]). */
 export interface HierarchicalLaplace {
-  /** Posterior mode in (a, b, s, mu, tau), found in the sampling coordinates (a, b, ln s, mu, ln tau). */
+  /**
+   * Posterior mode in (a, b, s, mu, tau), found in the sampling coordinates (a, b, ln s, mu,
+   * ln tau); with dz a sixth entry, c.
+   */
   mode: Float64Array;
   /** Standard deviations from H^-1 at the mode; for s and tau by the delta method (s sd(ln s)); NaN if H is not positive definite. */
   sd: Float64Array;
@@ -314,10 +351,13 @@ export function fitHierarchicalLaplace(objs: HierarchicalData, opts: Hierarchica
   const pre = presolve(st);
   const start = startAtMode(st.logPost, pre.x0, pre.step, st.h, 10, rng, { maxEval: pre.maxEval });
   const m = start.mode;
-  const mode = Float64Array.of(m[0], m[1], Math.exp(m[2]), m[3], Math.exp(m[4]));
-  const sd = new Float64Array(5).fill(NaN);
+  const dim = st.dim;
+  const mode = Float64Array.from(m);
+  mode[2] = Math.exp(m[2]);
+  mode[4] = Math.exp(m[4]);
+  const sd = new Float64Array(dim).fill(NaN);
   if (start.cov) {
-    for (let d = 0; d < 5; d++) sd[d] = Math.sqrt(start.cov[d * 5 + d]);
+    for (let d = 0; d < dim; d++) sd[d] = Math.sqrt(start.cov[d * dim + d]);
     sd[2] *= mode[2];
     sd[4] *= mode[4];
   }
@@ -329,7 +369,12 @@ export function fitHierarchicalLaplace(objs: HierarchicalData, opts: Hierarchica
  * of the affine-invariant ensemble sampler (Goodman & Weare 2010) start from the Laplace
  * approximation at the posterior mode, found from a start at least squares on the posterior
  * means. Objects with no draw above the selection cut are left out (with a warning). Refuses,
- * with a PosterityError, draws without a finite interim prior.
+ * with a PosterityError, draws without a finite interim prior. With `objs.dz` the redshift
+ * coefficient c is sampled as a sixth parameter (reported as `c` and `drawsC`, last in the
+ * diagnostics). Caveat: the x model is one Gaussian for the whole bin, not a function of z;
+ * when the x distribution changes strongly across the bin (e.g. a redshift-dependent
+ * completeness limit) it is only an approximate prior for the true x, which matters little
+ * when the x errors are small compared with the spread of x.
  */
 export function fitHierarchical(objs: HierarchicalData, opts: HierarchicalOptions): HierarchicalFit {
   const st = setup(objs, opts);
@@ -340,27 +385,33 @@ export function fitHierarchical(objs: HierarchicalData, opts: HierarchicalOption
   const burn = Math.floor(nSteps / 5);
   const pre = presolve(st);
   const start = startAtMode(logPost, pre.x0, pre.step, st.h, nWalkers, makeRng(deriveSeed(seed, 'hierarchical', 'start')), { maxEval: pre.maxEval });
-  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim: 5, nSteps, seed: deriveSeed(seed, 'hierarchical', 'ensemble') });
+  const dim = st.dim;
+  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim, nSteps, seed: deriveSeed(seed, 'hierarchical', 'ensemble') });
   const m = nSteps * nWalkers;
-  const chain = new Float64Array(m * 5);
+  const chain = new Float64Array(m * dim);
   for (let i = 0; i < m; i++) {
-    const o = 5 * i;
+    const o = dim * i;
     chain[o] = run.chain[o];
     chain[o + 1] = run.chain[o + 1];
     chain[o + 2] = Math.exp(run.chain[o + 2]);
     chain[o + 3] = run.chain[o + 3];
     chain[o + 4] = Math.exp(run.chain[o + 4]);
+    if (dim === 6) chain[o + 5] = run.chain[o + 5];
   }
-  const [a, b, s, mu, tau] = summariseChain(chain, nSteps, nWalkers, 5, burn);
-  const diag = chainDiagnostics(chain, nSteps, nWalkers, 5, burn);
-  warnings.push(...convergenceWarnings(diag, run.acceptance, ['a', 'b', 's', 'mu', 'tau']));
+  const [a, b, s, mu, tau, c] = summariseChain(chain, nSteps, nWalkers, dim, burn);
+  const diag = chainDiagnostics(chain, nSteps, nWalkers, dim, burn);
+  warnings.push(...convergenceWarnings(diag, run.acceptance, ['a', 'b', 's', 'mu', 'tau', 'c']));
 
-  const thin5 = thinChain(chain, nSteps, nWalkers, 5, burn, MAX_BAND_DRAWS);
-  const k = thin5.length / 5;
+  const thin = thinChain(chain, nSteps, nWalkers, dim, burn, MAX_BAND_DRAWS);
+  const k = thin.length / dim;
   const draws = new Float64Array(3 * k);
-  for (let i = 0; i < k; i++) draws.set(thin5.subarray(5 * i, 5 * i + 3), 3 * i);
+  const drawsC = dim === 6 ? new Float64Array(k) : undefined;
+  for (let i = 0; i < k; i++) {
+    draws.set(thin.subarray(dim * i, dim * i + 3), 3 * i);
+    if (drawsC) drawsC[i] = thin[dim * i + 5];
+  }
 
-  const effectiveDraws = termEss(objs, n0, xMin, pivot, a.median, b.median, s.median, mu.median, tau.median);
+  const effectiveDraws = termEss(objs, n0, xMin, pivot, a.median, b.median, s.median, mu.median, tau.median, c?.median ?? 0);
   let poor = 0;
   for (let i = 0; i < n0; i++) if (effectiveDraws[i] < 5) poor++;
   if (poor > 0.1 * n0) {
@@ -375,6 +426,7 @@ export function fitHierarchical(objs: HierarchicalData, opts: HierarchicalOption
     a,
     b,
     s,
+    ...(drawsC ? { c, drawsC } : {}),
     diagnostics: { ...diag, acceptance: run.acceptance, nWalkers, nSteps, burn },
     draws,
     warnings,
@@ -385,11 +437,12 @@ export function fitHierarchical(objs: HierarchicalData, opts: HierarchicalOption
 }
 
 /** Kish ESS (sum t)^2 / sum t^2 of t_k = w_k f(x_k, y_k | theta) / pi_k over each object's draws (all draws, before sub-sampling; 0 when none is above the cut). */
-function termEss(d: HierarchicalData, n: number, xMin: number, pivot: number, a: number, b: number, s: number, mu: number, tau: number): Float64Array {
+function termEss(d: HierarchicalData, n: number, xMin: number, pivot: number, a0: number, b: number, s: number, mu: number, tau: number, c: number): Float64Array {
   const out = new Float64Array(n);
   for (let i = 0; i < n; i++) {
     const lo = d.offsets[i];
     const hi = d.offsets[i + 1];
+    const a = d.dz ? a0 + c * d.dz[i] : a0;
     let m = -Infinity;
     const v = new Float64Array(hi - lo);
     for (let j = lo; j < hi; j++) {

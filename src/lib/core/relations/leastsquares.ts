@@ -80,3 +80,83 @@ export function weightedLeastSquares(x: Float64Array, y: Float64Array, pivot: nu
   const covAB = cov0 + d * varB;
   return { a, b, varA, covAB, varB, chi2, n };
 }
+
+export interface LeastSquaresPlane {
+  /** Intercept at x = pivot, dz = 0. */
+  a: number;
+  b: number;
+  /** Coefficient of the covariate dz. */
+  c: number;
+  /** Covariance of (a, b, c), row-major 3 x 3, scaled by the residual variance chi2 / (n - 3). */
+  cov: Float64Array;
+  /** Sum of squared residuals. */
+  chi2: number;
+  n: number;
+}
+
+/**
+ * Ordinary least squares for y = a + b (x - pivot) + c dz, the three-column design [1, x, dz]
+ * (the normal equations, e.g. Press et al. 2007, Numerical Recipes 3rd ed., §15.4). Both
+ * regressors are centred on their means, which decouples the mean of y, then (b, c) solve the
+ * 2 x 2 system of centred cross-products and the intercept is moved to (pivot, dz = 0). The
+ * covariance is (X^T X)^-1 chi2 / (n - 3), the usual standard errors.
+ */
+export function leastSquaresWithCovariate(x: Float64Array, y: Float64Array, pivot: number, dz: Float64Array): LeastSquaresPlane {
+  const n = x.length;
+  if (y.length !== n || dz.length !== n) {
+    throw new PosterityError(problem({ message: 'least squares: x, y and dz must have the same length', got: `${n}, ${y.length}, ${dz.length}` }));
+  }
+  if (n < 4) {
+    throw new PosterityError(problem({ message: 'least squares with a covariate needs at least 4 points', expected: '>= 4', got: String(n) }));
+  }
+  let xm = 0, zm = 0, ym = 0;
+  for (let i = 0; i < n; i++) {
+    if (!Number.isFinite(x[i]) || !Number.isFinite(y[i]) || !Number.isFinite(dz[i])) {
+      throw new PosterityError(problem({ message: 'least squares: point is not finite', row: i + 1, got: `x=${x[i]}, y=${y[i]}, dz=${dz[i]}` }));
+    }
+    xm += x[i];
+    zm += dz[i];
+    ym += y[i];
+  }
+  xm /= n;
+  zm /= n;
+  ym /= n;
+  let suu = 0, suv = 0, svv = 0, suy = 0, svy = 0;
+  for (let i = 0; i < n; i++) {
+    const u = x[i] - xm;
+    const v = dz[i] - zm;
+    const r = y[i] - ym;
+    suu += u * u;
+    suv += u * v;
+    svv += v * v;
+    suy += u * r;
+    svy += v * r;
+  }
+  const det = suu * svv - suv * suv;
+  if (!(det > 1e-12 * suu * svv)) {
+    throw new PosterityError(
+      problem({ message: 'least squares: x and dz are constant or collinear, the slope and the dz coefficient are not both defined' }),
+    );
+  }
+  const b = (svv * suy - suv * svy) / det;
+  const c = (suu * svy - suv * suy) / det;
+  let chi2 = 0;
+  for (let i = 0; i < n; i++) {
+    const r = y[i] - ym - b * (x[i] - xm) - c * (dz[i] - zm);
+    chi2 += r * r;
+  }
+  const sig2 = chi2 / (n - 3);
+  const vbb = (svv / det) * sig2;
+  const vcc = (suu / det) * sig2;
+  const vbc = (-suv / det) * sig2;
+  const v00 = sig2 / n; // the centred intercept is uncorrelated with (b, c)
+  // a = ym + b (pivot - xm) + c (0 - zm)
+  const p = pivot - xm;
+  const q = -zm;
+  const a = ym + b * p + c * q;
+  const vaa = v00 + p * p * vbb + q * q * vcc + 2 * p * q * vbc;
+  const vab = p * vbb + q * vbc;
+  const vac = p * vbc + q * vcc;
+  const cov = Float64Array.of(vaa, vab, vac, vab, vbb, vbc, vac, vbc, vcc);
+  return { a, b, c, cov, chi2, n };
+}

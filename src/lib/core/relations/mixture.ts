@@ -6,9 +6,9 @@
 import { PosterityError, problem } from '../problems.ts';
 import { deriveSeed, makeRng } from '../random.ts';
 import { chainDiagnostics, summariseChain, thinChain } from './diagnostics.ts';
-import type { DeconvolvedData } from './deconvolved.ts';
+import { splitDraws, validateCovariate, type DeconvolvedData } from './deconvolved.ts';
 import { sampleEnsemble } from './ensemble.ts';
-import { weightedLeastSquares } from './leastsquares.ts';
+import { leastSquaresWithCovariate, weightedLeastSquares } from './leastsquares.ts';
 import { MAX_BAND_DRAWS, type Estimate, type RelationFit } from './linear.ts';
 import { startAtMode } from './start.ts';
 import { convergenceWarnings } from './warnings.ts';
@@ -16,7 +16,7 @@ import { convergenceWarnings } from './warnings.ts';
 export interface MixtureOptions {
   pivot: number;
   seed: number;
-  /** Default 16 (>= 12 for the 6 parameters). */
+  /** Default 16 (>= 12 for the 6 parameters, >= 14 for the 7 with dz). */
   nWalkers?: number;
   /** Default 400; the first fifth is burn-in. */
   nSteps?: number;
@@ -32,27 +32,32 @@ export interface MixtureFit extends RelationFit {
 
 const HALF_LOG_2PI = 0.5 * Math.log(2 * Math.PI);
 
-/** ln of the sequence and broad-component densities of object i, without the mixing weights. */
-function componentLogs(d: DeconvolvedData, pivot: number, i: number, a: number, b: number, s2: number, mo: number, so2: number): [number, number] {
+/** ln of the sequence and broad-component densities of object i, without the mixing weights (cdz: c dz_i, 0 without the redshift term). */
+function componentLogs(d: DeconvolvedData, pivot: number, i: number, a: number, b: number, s2: number, mo: number, so2: number, cdz: number): [number, number] {
   const vs = s2 + d.cyy[i] - 2 * b * d.cxy[i] + b * b * d.cxx[i];
-  const r = d.y[i] - a - b * (d.x[i] - pivot);
+  const r = d.y[i] - a - b * (d.x[i] - pivot) - cdz;
   const vo = so2 + d.cyy[i];
   const ro = d.y[i] - mo;
   return [-0.5 * ((r * r) / vs + Math.log(vs)) - HALF_LOG_2PI, -0.5 * ((ro * ro) / vo + Math.log(vo)) - HALF_LOG_2PI];
 }
 
 /**
- * Log posterior of theta = (a, b, ln s, mu_o, ln s_o, logit f). Likelihood per galaxy:
- * f N(y; a + b (x - pivot), s^2 + Cyy - 2 b Cxy + b^2 Cxx) + (1 - f) N(y; mu_o, s_o^2 + Cyy)
+ * Log posterior of theta = (a, b, ln s, mu_o, ln s_o, logit f[, c]). Likelihood per galaxy:
+ * f N(y; a + b (x - pivot) [+ c dz], s^2 + Cyy - 2 b Cxy + b^2 Cxx) + (1 - f) N(y; mu_o, s_o^2 + Cyy)
  * (sequence as in the deconvolved fit, Hogg, Bovy & Lang 2010 eq. 32 projected vertically;
- * broad component Gaussian in y, their sect. 5 mixture). Priors: flat in a and mu_o; flat in
- * the angle of b; flat in s and s_o with s_o > s (which labels the broad component);
- * uniform f on (0, 1).
+ * broad component Gaussian in y, their sect. 5 mixture). Only the sequence gets the redshift
+ * term (a linear covariate, c last in theta). Priors: flat in a, c and mu_o; flat in the angle
+ * of b; flat in s and s_o with s_o > s (which labels the broad component); uniform f on (0, 1).
  */
 function makeLogPosterior(d: DeconvolvedData, pivot: number): (t: Float64Array) => number {
   const n = d.x.length;
+  const hasC = d.dz !== undefined;
+  // without the covariate: dz = 0 and c = 0, so r is unchanged to the last bit
+  const dz = d.dz ?? new Float64Array(n);
   return (t) => {
     const a = t[0], b = t[1], lnS = t[2], mo = t[3], lnSo = t[4], lf = t[5];
+    const c = hasC ? t[6] : 0;
+    if (hasC && !Number.isFinite(c)) return -Infinity;
     if (!(lnS > -30 && lnSo > lnS && lnSo < 30 && Math.abs(lf) < 30) || !Number.isFinite(a) || !Number.isFinite(b) || !Number.isFinite(mo)) return -Infinity;
     const f = 1 / (1 + Math.exp(-lf));
     const lnF = Math.log(f);
@@ -63,7 +68,7 @@ function makeLogPosterior(d: DeconvolvedData, pivot: number): (t: Float64Array) 
     let total = 0;
     for (let i = 0; i < n; i++) {
       const vs = s2 + cyy[i] - 2 * b * cxy[i] + b * b * cxx[i];
-      const r = y[i] - a - b * (x[i] - pivot);
+      const r = y[i] - a - b * (x[i] - pivot) - c * dz[i];
       const vo = so2 + cyy[i];
       const ro = y[i] - mo;
       const u = lnF - 0.5 * ((r * r) / vs + Math.log(vs));
@@ -79,6 +84,8 @@ function makeLogPosterior(d: DeconvolvedData, pivot: number): (t: Float64Array) 
  * posterior means and covariances with the affine-invariant ensemble sampler (Goodman &
  * Weare 2010), started from the Laplace approximation at the mode. `membership` is each
  * galaxy's f p_seq / (f p_seq + (1 - f) p_broad), averaged over up to 400 posterior draws.
+ * With `d.dz` the sequence mean gets the redshift term c dz (reported as `c`, `drawsC`; c
+ * is the 7th sampled parameter, last in the diagnostics).
  */
 export function fitMixture(d: DeconvolvedData, opts: MixtureOptions): MixtureFit {
   const n = d.x.length;
@@ -91,6 +98,9 @@ export function fitMixture(d: DeconvolvedData, opts: MixtureOptions): MixtureFit
       throw new PosterityError(problem({ message: 'mixture fit: object has a non-finite mean or an invalid covariance', row: i + 1 }));
     }
   }
+  const dz = d.dz;
+  if (dz) validateCovariate(dz, n, 'mixture fit');
+  const dim = dz ? 7 : 6;
   const { pivot, seed } = opts;
   const nWalkers = opts.nWalkers ?? 16;
   const nSteps = opts.nSteps ?? 400;
@@ -98,7 +108,11 @@ export function fitMixture(d: DeconvolvedData, opts: MixtureOptions): MixtureFit
   const logPost = makeLogPosterior(d, pivot);
 
   // start: least squares for the sequence, the broad component at the y mean with twice the spread
-  const ols = weightedLeastSquares(d.x, d.y, pivot);
+  const plane = dz ? leastSquaresWithCovariate(d.x, d.y, pivot, dz) : undefined;
+  const line = plane ? undefined : weightedLeastSquares(d.x, d.y, pivot);
+  const ols = plane
+    ? { a: plane.a, b: plane.b, chi2: plane.chi2 * (n - 2) / (n - 3), varA: plane.cov[0], varB: plane.cov[4] }
+    : (line as NonNullable<typeof line>);
   let my = 0;
   for (let i = 0; i < n; i++) my += d.y[i];
   my /= n;
@@ -110,42 +124,55 @@ export function fitMixture(d: DeconvolvedData, opts: MixtureOptions): MixtureFit
   const seA = Math.sqrt(ols.varA) || 1e-3;
   const seB = Math.sqrt(ols.varB) || 1e-3;
   const rn = Math.sqrt(n);
+  const x0 = [ols.a, ols.b, Math.log(s0), my, Math.log(so0), Math.log(0.7 / 0.3)];
+  const step = [2 * seA, 3 * seB, 0.3, so0 / 3, 0.3, 0.5];
+  const h = [0.1 * seA, 0.1 * seB, 0.2 / rn, (0.2 * so0) / rn, 0.2 / rn, 0.5 / rn];
+  if (plane) {
+    const seC = Math.sqrt(plane.cov[8]) || 1e-3;
+    x0.push(plane.c);
+    step.push(2 * seC);
+    h.push(0.1 * seC);
+  }
   const start = startAtMode(
     logPost,
-    Float64Array.of(ols.a, ols.b, Math.log(s0), my, Math.log(so0), Math.log(0.7 / 0.3)),
-    Float64Array.of(2 * seA, 3 * seB, 0.3, so0 / 3, 0.3, 0.5),
-    Float64Array.of(0.1 * seA, 0.1 * seB, 0.2 / rn, (0.2 * so0) / rn, 0.2 / rn, 0.5 / rn),
+    Float64Array.from(x0),
+    Float64Array.from(step),
+    Float64Array.from(h),
     nWalkers,
     makeRng(deriveSeed(seed, 'mixture', 'start')),
-    { maxEval: 1200 },
+    { maxEval: dz ? 1400 : 1200 },
   );
-  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim: 6, nSteps, seed: deriveSeed(seed, 'mixture', 'ensemble') });
+  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim, nSteps, seed: deriveSeed(seed, 'mixture', 'ensemble') });
   const m = nSteps * nWalkers;
-  const chain = new Float64Array(m * 6);
+  const chain = new Float64Array(m * dim);
   for (let i = 0; i < m; i++) {
-    const o = 6 * i;
+    const o = dim * i;
     chain[o] = run.chain[o];
     chain[o + 1] = run.chain[o + 1];
     chain[o + 2] = Math.exp(run.chain[o + 2]);
     chain[o + 3] = run.chain[o + 3];
     chain[o + 4] = Math.exp(run.chain[o + 4]);
     chain[o + 5] = 1 / (1 + Math.exp(-run.chain[o + 5]));
+    if (dz) chain[o + 6] = run.chain[o + 6];
   }
-  const [a, b, s, mo, so, f] = summariseChain(chain, nSteps, nWalkers, 6, burn);
-  const diag = chainDiagnostics(chain, nSteps, nWalkers, 6, burn);
-  const warnings = convergenceWarnings(diag, run.acceptance, ['a', 'b', 's', 'broad mean', 'broad sd', 'sequence fraction']);
+  const [a, b, s, mo, so, f, c] = summariseChain(chain, nSteps, nWalkers, dim, burn);
+  const diag = chainDiagnostics(chain, nSteps, nWalkers, dim, burn);
+  const names = ['a', 'b', 's', 'broad mean', 'broad sd', 'sequence fraction'];
+  if (dz) names.push('c');
+  const warnings = convergenceWarnings(diag, run.acceptance, names);
 
-  const thin = thinChain(chain, nSteps, nWalkers, 6, burn, MAX_BAND_DRAWS);
-  const k = thin.length / 6;
-  const draws = new Float64Array(3 * k);
+  const thin = thinChain(chain, nSteps, nWalkers, dim, burn, MAX_BAND_DRAWS);
+  const k = thin.length / dim;
+  const split = dz ? splitDraws(thin, dim, 6) : undefined;
+  const draws = split ? split.draws : new Float64Array(3 * k);
   const membership = new Float64Array(n);
   for (let r = 0; r < k; r++) {
-    const t = thin.subarray(6 * r, 6 * r + 6);
-    draws.set(t.subarray(0, 3), 3 * r);
+    const t = thin.subarray(dim * r, dim * r + dim);
+    if (!split) draws.set(t.subarray(0, 3), 3 * r);
     const lnF = Math.log(t[5]);
     const ln1F = Math.log1p(-t[5]);
     for (let i = 0; i < n; i++) {
-      const [ls, lo] = componentLogs(d, pivot, i, t[0], t[1], t[2] * t[2], t[3], t[4] * t[4]);
+      const [ls, lo] = componentLogs(d, pivot, i, t[0], t[1], t[2] * t[2], t[3], t[4] * t[4], dz ? t[6] * dz[i] : 0);
       membership[i] += 1 / (1 + Math.exp(ln1F + lo - lnF - ls));
     }
   }
@@ -157,6 +184,7 @@ export function fitMixture(d: DeconvolvedData, opts: MixtureOptions): MixtureFit
     a,
     b,
     s,
+    ...(dz ? { c, drawsC: split!.drawsC } : {}),
     diagnostics: { ...diag, acceptance: run.acceptance, nWalkers, nSteps, burn },
     draws,
     warnings,

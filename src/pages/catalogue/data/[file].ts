@@ -10,5 +10,5 @@ export const GET: APIRoute = ({ params }) => {
   const bytes = explorerFile(String(params.file));
   if (!bytes) return new Response('not found', { status: 404 });
   const type = String(params.file).endsWith('.json') ? 'application/json' : 'application/octet-stream';
-  return new Response(bytes, { headers: { 'content-type': type } });
+  return new Response(bytes as unknown as BodyInit, { headers: { 'content-type': type } });
 };

@@ -9,5 +9,5 @@ export function getStaticPaths() {
 export const GET: APIRoute = ({ params }) => {
   const bytes = viewerFile(String(params.file));
   if (!bytes) return new Response('not found', { status: 404 });
-  return new Response(bytes, { headers: { 'content-type': 'application/json' } });
+  return new Response(bytes as unknown as BodyInit, { headers: { 'content-type': 'application/json' } });
 };
