@@ -102,28 +102,60 @@ export function stateQuery(s: State): string {
   return p.toString();
 }
 
-/** Ascending permutation of `keys` (uint32, stable): LSD radix sort in two 16-bit passes. */
-function radixOrder(keys: Uint32Array, n: number): Uint32Array {
+/**
+ * Ascending permutation of rows by uint32 keys (stable): LSD radix sort in 16-bit passes,
+ * over `lo` and then, for 64-bit keys, `hi`. Ties keep catalogue order.
+ */
+function radixOrder(n: number, lo: Uint32Array, hi?: Uint32Array): Uint32Array {
   let a = new Uint32Array(n);
   for (let i = 0; i < n; i++) a[i] = i;
   let b = new Uint32Array(n);
   const count = new Uint32Array(65536);
-  for (const shift of [0, 16]) {
-    count.fill(0);
-    for (let i = 0; i < n; i++) count[(keys[a[i]] >>> shift) & 0xffff]++;
-    let sum = 0;
-    for (let k = 0; k < 65536; k++) {
-      const c = count[k];
-      count[k] = sum;
-      sum += c;
+  for (const keys of hi ? [lo, hi] : [lo]) {
+    for (const shift of [0, 16]) {
+      count.fill(0);
+      for (let i = 0; i < n; i++) count[(keys[i] >>> shift) & 0xffff]++;
+      let sum = 0;
+      for (let k = 0; k < 65536; k++) {
+        const c = count[k];
+        count[k] = sum;
+        sum += c;
+      }
+      for (let i = 0; i < n; i++) {
+        const r = a[i];
+        b[count[(keys[r] >>> shift) & 0xffff]++] = r;
+      }
+      [a, b] = [b, a];
     }
-    for (let i = 0; i < n; i++) {
-      const r = a[i];
-      b[count[(keys[r] >>> shift) & 0xffff]++] = r;
-    }
-    [a, b] = [b, a];
   }
   return a;
+}
+
+/** Sortable 64-bit keys (as low and high words) of a float64 column; NaN always last. */
+function sortKeys64(v: Float64Array, n: number, desc: boolean): { lo: Uint32Array; hi: Uint32Array } {
+  const words = new Uint32Array(v.buffer, v.byteOffset, 2 * n); // little-endian: low word first
+  const lo = new Uint32Array(n);
+  const hi = new Uint32Array(n);
+  for (let i = 0; i < n; i++) {
+    if (v[i] !== v[i]) {
+      lo[i] = hi[i] = 0xffffffff;
+      continue;
+    }
+    let l = words[2 * i];
+    let h = words[2 * i + 1];
+    if (h === 0x80000000 && l === 0) h = 0; // -0 sorts with +0
+    if (h & 0x80000000) {
+      h = ~h >>> 0;
+      l = ~l >>> 0;
+    } else h = (h | 0x80000000) >>> 0;
+    if (desc) {
+      h = ~h >>> 0;
+      l = ~l >>> 0;
+    }
+    lo[i] = l;
+    hi[i] = h;
+  }
+  return { lo, hi };
 }
 
 /** Sortable uint32 keys of a float32 or integer column; NaN always last. */
@@ -343,25 +375,16 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
     const v = c.values as Store;
     if (c.type === 'f32' || c.type === 'i32' || c.type === 'i16' || c.type === 'u8' || c.type === 'cat') {
       // categories are stored sorted, so their codes sort like their text
-      perm = radixOrder(sortKeys(v as Float32Array, n, desc), n);
+      perm = radixOrder(n, sortKeys(v as Float32Array, n, desc));
+    } else if (c.type === 'f64') {
+      const k = sortKeys64(v as Float64Array, n, desc);
+      perm = radixOrder(n, k.lo, k.hi);
     } else {
       perm = new Uint32Array(n);
       for (let i = 0; i < n; i++) perm[i] = i;
       const dir = desc ? -1 : 1;
-      if (c.type === 'f64') {
-        const x = v as Float64Array;
-        perm.sort((a, b) => {
-          const xa = x[a];
-          const xb = x[b];
-          const na = xa !== xa;
-          const nb = xb !== xb;
-          if (na || nb) return na === nb ? a - b : na ? 1 : -1;
-          return xa === xb ? a - b : (xa < xb ? -1 : 1) * dir;
-        });
-      } else {
-        const s = v as string[];
-        perm.sort((a, b) => (s[a] === s[b] ? a - b : (s[a] < s[b] ? -1 : 1) * dir));
-      }
+      const t = v as string[];
+      perm.sort((a, b) => (t[a] === t[b] ? a - b : (t[a] < t[b] ? -1 : 1) * dir));
     }
     sortCache.set(key, perm);
     return perm;
