@@ -47,13 +47,20 @@ function el<K extends keyof HTMLElementTagNameMap>(tag: K, attrs: Record<string,
   return e;
 }
 
-function fmt(v: unknown): string {
+/**
+ * A cell's text. Float32 columns show 5 significant digits (their stored precision is about 7,
+ * and posterior summaries are not known to more); angles in degrees 6 decimals (0.004 arcsec).
+ */
+function fmt(v: unknown, c?: ExplorerColumn): string {
   if (v === null || v === undefined) return '';
   if (typeof v === 'number') {
     if (!Number.isFinite(v)) return '';
     if (Number.isInteger(v)) return String(v);
+    // a true minus sign, as on the rest of the site (the CSV export keeps ASCII)
+    if (c?.unit === 'deg') return v.toFixed(6).replace('-', '−');
     const a = Math.abs(v);
-    return a !== 0 && (a < 1e-3 || a >= 1e6) ? v.toExponential(4) : String(Number(v.toPrecision(7)));
+    if (a !== 0 && (a < 1e-3 || a >= 1e6)) return v.toExponential(c?.type === 'f32' ? 3 : 4).replace(/-/g, '−');
+    return String(Number(v.toPrecision(c?.type === 'f32' ? 5 : 7))).replace('-', '−');
   }
   return String(v);
 }
@@ -184,6 +191,15 @@ function sortKeys(v: Float32Array | Int32Array | Int16Array | Uint8Array, n: num
   return keys;
 }
 
+/** Row order of a numeric column, ascending or descending, ties in catalogue order, NaN last (exported for tests). */
+export function numericOrder(v: Float64Array | Float32Array | Int32Array | Int16Array | Uint8Array, desc: boolean, n = v.length): Uint32Array {
+  if (v instanceof Float64Array) {
+    const k = sortKeys64(v, n, desc);
+    return radixOrder(n, k.lo, k.hi);
+  }
+  return radixOrder(n, sortKeys(v, n, desc));
+}
+
 export async function startExplorer(root: HTMLElement): Promise<void> {
   const manifestUrl = new URL(root.dataset.manifest as string, document.baseURI);
   const objectsBase = root.dataset.objects as string;
@@ -290,6 +306,7 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
   const viewport = root.querySelector('.explorer-viewport') as HTMLElement;
   controls.hidden = false;
   viewport.hidden = false;
+  (root.querySelector('.explorer-help') as HTMLElement).hidden = false;
   (root.querySelector('.explorer-actions') as HTMLElement).hidden = false;
   const fallback = document.getElementById('catalogue-fallback');
   if (fallback) fallback.hidden = true;
@@ -375,10 +392,9 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
     const v = c.values as Store;
     if (c.type === 'f32' || c.type === 'i32' || c.type === 'i16' || c.type === 'u8' || c.type === 'cat') {
       // categories are stored sorted, so their codes sort like their text
-      perm = radixOrder(n, sortKeys(v as Float32Array, n, desc));
+      perm = numericOrder(v as Float32Array, desc, n);
     } else if (c.type === 'f64') {
-      const k = sortKeys64(v as Float64Array, n, desc);
-      perm = radixOrder(n, k.lo, k.hi);
+      perm = numericOrder(v as Float64Array, desc, n);
     } else {
       perm = new Uint32Array(n);
       for (let i = 0; i < n; i++) perm[i] = i;
@@ -526,7 +542,7 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
           const v = (c.values as Int32Array)[r];
           td.textContent = String(v);
           if (v) td.title = describeFlags(Number(v)).join(', ');
-        } else td.textContent = fmt((c.values as ArrayLike<unknown>)[r]);
+        } else td.textContent = fmt((c.values as ArrayLike<unknown>)[r], c);
         tr.append(td);
       }
       frag.append(tr);
@@ -636,12 +652,21 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
   controls.querySelector('[name=rangeadd]')!.addEventListener('click', addRange);
   for (const inp of [rangeLo, rangeHi]) inp.addEventListener('keydown', (ev) => { if (ev.key === 'Enter') { ev.preventDefault(); addRange(); } });
   viewport.addEventListener('scroll', () => requestAnimationFrame(() => renderRows()), { passive: true });
+  new ResizeObserver(() => renderRows()).observe(viewport);
+  /** CSV text of a cell: float32 values to the 7 digits they hold, not their binary expansion. */
+  const cellText = (c: Col, r: number): string => {
+    const v = (c.values as ArrayLike<unknown>)[r];
+    if (c.type === 'cat') return c.categories?.[v as number] ?? '';
+    if (c.type === 'f32') return Number.isFinite(v as number) ? String(Number((v as number).toPrecision(7))) : '';
+    if (typeof v === 'number' && !Number.isFinite(v)) return '';
+    return String(v);
+  };
   root.querySelector('[name=csv]')!.addEventListener('click', () => {
     const shown = visible.map((nm) => byName.get(nm)!).filter((c) => c.values);
     const lines = [shown.map((c) => csvCell(c.name)).join(',')];
     for (let k = 0; k < order.length; k++) {
       const r = order[k];
-      lines.push(shown.map((c) => csvCell(c.type === 'cat' ? c.categories?.[(c.values as Uint8Array)[r]] ?? '' : String((c.values as ArrayLike<unknown>)[r]))).join(','));
+      lines.push(shown.map((c) => csvCell(cellText(c, r))).join(','));
     }
     const blob = new Blob([lines.join('\n') + '\n'], { type: 'text/csv' });
     const a = el('a', { href: URL.createObjectURL(blob), download: 'catalogue-selection.csv' });

@@ -113,7 +113,9 @@ function figure(caption: string): { fig: HTMLElement; box: HTMLElement } {
   return { fig, box };
 }
 
-function paramTable(o: ObjectContent): HTMLElement {
+function paramTable(o: ObjectContent, priorEdgeMass: number): HTMLElement {
+  const atEdge = (p: ParamRow) => p.priorEdgeMass !== undefined && p.priorEdgeMass > priorEdgeMass;
+  const pct = (f: number) => `${(f * 100).toFixed(f >= 0.1 ? 0 : 1)}%`;
   const showTruth = o.params.some((p) => p.truth !== undefined);
   const so = o.summariesOnly;
   const row = (p: ParamRow) => {
@@ -134,7 +136,8 @@ function paramTable(o: ObjectContent): HTMLElement {
         'td',
         null,
         p.multimodal && h('span', { class: 'badge flag' }, 'multimodal'),
-        p.priorEdgeMass !== undefined && p.priorEdgeMass > 0 && h('span', { class: 'badge flag' }, `${(p.priorEdgeMass * 100).toFixed(1)}% at prior edge`),
+        atEdge(p) && h('span', { class: 'badge flag', title: `More than ${pct(priorEdgeMass)} of the posterior lies near a bound of the prior` }, `${pct(p.priorEdgeMass as number)} at prior edge`),
+        !p.multimodal && !atEdge(p) && h('span', { class: 'none' }, '—'),
       ),
     );
   };
@@ -149,7 +152,7 @@ function paramTable(o: ObjectContent): HTMLElement {
         'caption',
         null,
         `Parameters of ${o.id}`,
-        h('span', { class: 'sub' }, `Median with the central 68% (16th–84th percentile) and 95% (2.5th–97.5th) credible intervals of the weighted posterior; HDI is the highest-density interval.${so ? ' Only percentile summaries were supplied for this object, so mean, standard deviation and HDIs are not from draws.' : ''}`),
+        h('span', { class: 'sub' }, `Notes flag a posterior piled against a bound of the prior (more than ${pct(priorEdgeMass)} of its mass near the bound) or with more than one mode. Median with the central 68% (16th–84th percentile) and 95% (2.5th–97.5th) credible intervals of the weighted posterior; HDI is the highest-density interval.${so ? ' Only percentile summaries were supplied for this object, so mean, standard deviation and HDIs are not from draws.' : ''}`),
       ),
       h('thead', null, h('tr', null, heads.map((t, i) => h('th', { scope: 'col', class: i >= 2 && t !== 'Notes' ? 'n' : undefined }, t)))),
       h('tbody', null, o.params.map(row)),
@@ -162,7 +165,7 @@ function facts(pairs: [string, Child | Child[]][]): HTMLElement {
 }
 
 /** The object page, in the same order and words as the prerendered one. */
-export function renderObject(main: HTMLElement, o: ObjectContent, total: number): { charts: Promise<void> } {
+export function renderObject(main: HTMLElement, o: ObjectContent, total: number, priorEdgeMass = 0): { charts: Promise<void> } {
   const nLimits = o.photometry.filter((p) => p.upperLimit).length;
   const flags =
     o.flagReasons.length === 0
@@ -222,7 +225,7 @@ export function renderObject(main: HTMLElement, o: ObjectContent, total: number)
       ),
     ),
     h('h2', { id: 'params' }, 'Posterior summaries'),
-    paramTable(o),
+    paramTable(o, priorEdgeMass),
     h('h2', { id: 'sed' }, 'Spectral energy distribution'),
     sedBlock,
     h('h2', { id: 'posterior' }, 'Posterior distribution'),
@@ -328,7 +331,7 @@ export async function startViewer(root: HTMLElement): Promise<void> {
     if (!o || o.slug !== slug) throw new Error(`shard ${shard} does not hold object ${where.index}`);
     document.title = `${o.id} · ${siteTitle}`;
     status.textContent = '';
-    const { charts } = renderObject(main, o, total);
+    const { charts } = renderObject(main, o, total, Number(root.dataset.priorEdgeMass ?? '0'));
     root.dataset.state = 'shown';
     await charts;
     root.dataset.state = 'ready';

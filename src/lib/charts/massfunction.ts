@@ -32,7 +32,8 @@ export function massFunctionSpec(mf: MassFunctionContent, opts: { width?: number
     for (const p of b.points) {
       if (!(p.phi > 0)) continue;
       const lo = p.phi - p.phiErr > 0 ? p.phi - p.phiErr : p.phi / 10;
-      pts.push({ bin, x: p.logM, y: r6(p.phi), lo: r6(lo), hi: r6(p.phi + p.phiErr), n: p.n });
+      const below = b.completenessLogM !== null && p.logM < b.completenessLogM;
+      pts.push({ bin, x: p.logM, y: r6(p.phi), lo: r6(lo), hi: r6(p.phi + p.phiErr), n: p.n, below });
       xMin = Math.min(xMin, p.logM);
       xMax = Math.max(xMax, p.logM);
       yMin = Math.min(yMin, lo);
@@ -69,13 +70,18 @@ export function massFunctionSpec(mf: MassFunctionContent, opts: { width?: number
   if (limits.length) layers.push({ data: { values: limits }, mark: { type: 'rule', strokeDash: [5, 3], strokeWidth: 1 }, encoding: { x, color: colour } });
   if (pts.length) {
     layers.push({ data: { values: pts }, mark: { type: 'rule', strokeWidth: 1.2, clip: true }, encoding: { x, y: { ...y, field: 'lo' }, y2: { field: 'hi' }, color: colour } });
-    layers.push({ data: { values: pts }, mark: { type: 'point', filled: true, size: 36, opacity: 1, clip: true }, encoding: { x, y, color: colour, shape: { field: 'bin', type: 'nominal', scale: { domain: labels }, legend: null } } });
+    // below the bin's completeness limit the density is a lower limit: open symbols, fainter bars
+    const shape = { field: 'bin', type: 'nominal', scale: { domain: labels }, legend: null };
+    const complete = pts.filter((p) => !p.below);
+    const incomplete = pts.filter((p) => p.below);
+    if (complete.length) layers.push({ data: { values: complete }, mark: { type: 'point', filled: true, size: 36, opacity: 1, clip: true }, encoding: { x, y, color: colour, shape } });
+    if (incomplete.length) layers.push({ name: 'incomplete', data: { values: incomplete }, mark: { type: 'point', filled: false, size: 36, strokeWidth: 1.3, opacity: 0.8, clip: true }, encoding: { x, y, color: colour, shape } });
   }
   if (!layers.length) layers.push({ data: { values: [{ x: x0, y: yDomain[0] }] }, mark: { type: 'point', opacity: 0 }, encoding: { x, y } });
   return {
     $schema: SCHEMA,
     title: { text: 'Stellar mass function', subtitle: `1/Vmax estimate over ${mf.areaDeg2} deg²` },
-    description: `Stellar mass function in ${mf.bins.length} redshift bins: points are 1/Vmax number densities with Poisson error bars, lines the fitted Schechter functions${truths.length ? ', dotted lines the true functions of the mock' : ''}, dashed vertical lines the mass completeness limits.`,
+    description: `Stellar mass function in ${mf.bins.length} redshift bins: points are 1/Vmax number densities with Poisson error bars, lines the fitted Schechter functions${truths.length ? ', dotted lines the true functions of the mock' : ''}, dashed vertical lines the mass completeness limits, open symbols the points below their bin's limit (lower limits).`,
     config: baseConfig(),
     width: opts.width ?? 520,
     height: opts.height ?? 360,

@@ -134,9 +134,15 @@ const isText = (v: unknown): v is string | string[] => typeof v === 'string' || 
 export function liftSpec(spec: TopLevelSpec): LiftedSpec {
   const datasets: LiftedSpec['datasets'] = [];
   const params: LiftedSpec['params'] = [];
+  // equal values share one param, so Vega-Lite still sees equal domains as one (no union)
+  const byValue = new Map<string, string>();
   const param = (value: unknown): string => {
+    const k = stableStringify(value);
+    const known = byValue.get(k);
+    if (known) return known;
     const name = `lift_p${params.length}`;
     params.push({ name, value });
+    byValue.set(k, name);
     return name;
   };
   const walk = (v: unknown, key: string | null, parent: Record<string, unknown> | null): unknown => {
@@ -168,14 +174,19 @@ export function liftSpec(spec: TopLevelSpec): LiftedSpec {
   return { skeleton, datasets, params };
 }
 
+/**
+ * A parsed skeleton. Each render builds a fresh View from it: a View re-run with new data keeps
+ * the scenegraph items that survive (axis ticks, legend entries) in their old order, so the
+ * bytes of a figure would depend on what was drawn before it; a fresh View from the parsed
+ * skeleton does not, and still skips the Vega-Lite compile and the Vega parse.
+ */
 interface Template {
-  view: View;
-  key: string;
+  runtime: ReturnType<typeof parse>;
 }
 
 /** Parsed skeletons of this thread, most recently used last; a few shapes cover a release. */
 const templates = new Map<string, Template>();
-const MAX_TEMPLATES = 24;
+const MAX_TEMPLATES = 64;
 
 function templateFor(lifted: LiftedSpec): Template {
   const key = createHash('sha256').update(stableStringify(lifted.skeleton)).digest('hex');
@@ -186,32 +197,30 @@ function templateFor(lifted: LiftedSpec): Template {
     return hit;
   }
   const vg = compile(lifted.skeleton as unknown as TopLevelSpec, { logger: SILENT as never }).spec;
-  const t: Template = { view: new View(parse(vg), { renderer: 'none', logLevel: 0 }), key };
+  const t: Template = { runtime: parse(vg) };
   templates.set(key, t);
-  if (templates.size > MAX_TEMPLATES) {
-    const [oldest] = templates.keys();
-    templates.get(oldest)!.view.finalize();
-    templates.delete(oldest);
-  }
+  if (templates.size > MAX_TEMPLATES) templates.delete(templates.keys().next().value!);
   return t;
 }
 
 /** Drop the parsed skeletons (tests; long-lived processes between releases). */
 export function clearTemplates(): void {
-  for (const t of templates.values()) t.view.finalize();
   templates.clear();
 }
 
 /** Render a Vega-Lite spec to a deterministic SVG string. */
 export async function renderSvg(vlSpec: TopLevelSpec, opts: RenderOptions = {}): Promise<string> {
   const lifted = liftSpec(vlSpec);
-  const { view } = templateFor(lifted);
-  for (const d of lifted.datasets) view.data(d.name, d.values.map((x) => (x !== null && typeof x === 'object' ? { ...(x as object) } : x)));
-  for (const p of lifted.params) view.signal(p.name, p.value);
-  await view.runAsync();
-  const svg = await view.toSVG();
-  const spec = vlSpec as { title?: unknown; description?: string };
-  return cleanSvg(svg, { title: textOf(spec.title) || undefined, description: spec.description }, opts.idPrefix);
+  const view = new View(templateFor(lifted).runtime, { renderer: 'none', logLevel: 0 });
+  try {
+    for (const d of lifted.datasets) view.data(d.name, d.values.map((x) => (x !== null && typeof x === 'object' ? { ...(x as object) } : x)));
+    for (const p of lifted.params) view.signal(p.name, p.value);
+    const svg = await view.toSVG();
+    const spec = vlSpec as { title?: unknown; description?: string };
+    return cleanSvg(svg, { title: textOf(spec.title) || undefined, description: spec.description }, opts.idPrefix);
+  } finally {
+    view.finalize();
+  }
 }
 
 /** The reference path: compile and parse the whole spec for this one render (tests compare the two). */

@@ -10,6 +10,15 @@
  * and a colour-like G = y - 0.5 x + N(0, sG^2), which correlates x and y. The fitter's interim
  * prior is not flat: x ~ N(10, 1), y ~ N(1, 2^2). Posterior draws are importance samples from
  * a Gaussian proposal with weights likelihood x prior / proposal, as a real fitter might give.
+ *
+ * Evolving case (optional `Evolution` argument of both): the relation evolves across the
+ * redshift bin, y = a + b (x - pivot) + c dz + N(0, s^2) with dz = z - zc uniform in [-h, h],
+ * and the sample is flux-limited: an object of true x is seen only up to
+ * dz_max(x) = -h + (x - xLo) / k, so objects with x near xLo occur only at the low-z end of the
+ * bin and x and dz are positively correlated. The true-x distribution is unchanged (each x gets
+ * a dz drawn uniformly on [-h, min(h, dz_max(x))]; x <= xLo is not seen), so the hierarchical
+ * fit's Gaussian-x model with the cut xMin = xLo is still the right one. Without an Evolution
+ * argument no extra random numbers are drawn, so the populations are those of earlier tests.
  */
 import { makeRng } from '../../../src/lib/core/random.ts';
 
@@ -22,13 +31,44 @@ export interface Truth {
   pivot: number;
 }
 
-export function gaussianPopulation(n: number, truth: Truth, seed: number, err: { sx: [number, number]; sy: [number, number]; rho: number }) {
+export interface Evolution {
+  /** Coefficient of dz = z - zc. */
+  c: number;
+  /** Half-width of the bin in z. */
+  h: number;
+  /** Completeness limit in x at the low-z edge of the bin. */
+  xLo: number;
+  /** Rise of the limit in x per unit z: dz_max(x) = -h + (x - xLo) / k. */
+  k: number;
+}
+
+/** dz for an object of true x under the flux limit of `ev` (see the file comment); x must exceed ev.xLo. */
+function drawDz(x: number, ev: Evolution, u: number): number {
+  const top = Math.min(ev.h, -ev.h + (x - ev.xLo) / ev.k);
+  return -ev.h + (top + ev.h) * u;
+}
+
+export function gaussianPopulation(
+  n: number,
+  truth: Truth,
+  seed: number,
+  err: { sx: [number, number]; sy: [number, number]; rho: number },
+  ev?: Evolution,
+) {
   const rng = makeRng(seed);
   const x = new Float64Array(n), y = new Float64Array(n), cxx = new Float64Array(n), cyy = new Float64Array(n), cxy = new Float64Array(n);
   const xt = new Float64Array(n), yt = new Float64Array(n);
+  const dz = ev ? new Float64Array(n) : undefined;
   for (let i = 0; i < n; i++) {
-    xt[i] = truth.mu + truth.tau * rng.normal();
-    yt[i] = truth.a + truth.b * (xt[i] - truth.pivot) + truth.s * rng.normal();
+    if (ev && dz) {
+      do xt[i] = truth.mu + truth.tau * rng.normal();
+      while (!(xt[i] > ev.xLo));
+      dz[i] = drawDz(xt[i], ev, rng.next());
+      yt[i] = truth.a + truth.b * (xt[i] - truth.pivot) + ev.c * dz[i] + truth.s * rng.normal();
+    } else {
+      xt[i] = truth.mu + truth.tau * rng.normal();
+      yt[i] = truth.a + truth.b * (xt[i] - truth.pivot) + truth.s * rng.normal();
+    }
     const sx = err.sx[0] + (err.sx[1] - err.sx[0]) * rng.next();
     const sy = err.sy[0] + (err.sy[1] - err.sy[0]) * rng.next();
     const r = err.rho;
@@ -40,7 +80,7 @@ export function gaussianPopulation(n: number, truth: Truth, seed: number, err: {
     x[i] = xt[i] + sx * z1;
     y[i] = yt[i] + sy * (r * z1 + Math.sqrt(1 - r * r) * z2);
   }
-  return { x, y, cxx, cyy, cxy, xt, yt };
+  return { x, y, cxx, cyy, cxy, xt, yt, ...(dz ? { dz } : {}) };
 }
 
 const LN10 = Math.log(10);
@@ -54,19 +94,25 @@ export interface SkewedOptions {
 }
 
 /** Skewed posteriors with a non-flat interim prior and a selection cut x > xMin on the true x. */
-export function skewedPopulation(truth: Truth, seed: number, o: SkewedOptions) {
+export function skewedPopulation(truth: Truth, seed: number, o: SkewedOptions, ev?: Evolution) {
   const rng = makeRng(seed);
   const { n, draws: K, xMin, sF, sG } = o;
   const m = n * K;
   const x = new Float64Array(m), y = new Float64Array(m), w = new Float64Array(m), logPrior = new Float64Array(m);
   const offsets = new Int32Array(n + 1);
   const xt = new Float64Array(n), yt = new Float64Array(n);
+  const dz = ev ? new Float64Array(n) : undefined;
   const logw = new Float64Array(K);
   for (let i = 0; i < n; i++) {
     let xi: number;
     do xi = truth.mu + truth.tau * rng.normal();
     while (!(xi > xMin));
-    const yi = truth.a + truth.b * (xi - truth.pivot) + truth.s * rng.normal();
+    let cdz = 0;
+    if (ev && dz) {
+      dz[i] = drawDz(xi, ev, rng.next());
+      cdz = ev.c * dz[i];
+    }
+    const yi = truth.a + truth.b * (xi - truth.pivot) + cdz + truth.s * rng.normal();
     xt[i] = xi;
     yt[i] = yi;
     const F = Math.pow(10, xi - truth.pivot) + sF * rng.normal();
@@ -100,7 +146,7 @@ export function skewedPopulation(truth: Truth, seed: number, o: SkewedOptions) {
     for (let k = 0; k < K; k++) w[i * K + k] = Math.exp(logw[k] - max) / sum;
   }
   offsets[n] = m;
-  return { x, y, w, logPrior, offsets, xt, yt };
+  return { x, y, w, logPrior, offsets, xt, yt, ...(dz ? { dz } : {}) };
 }
 
 /** Fraction of runs whose [lo, hi] holds the truth. */

@@ -290,6 +290,16 @@ function setup(objs: HierarchicalData, opts: HierarchicalOptions): Setup {
   };
 }
 
+/**
+ * The log posterior the hierarchical fit explores (`makeLogPosterior`), in the sampling
+ * coordinates (a, b, ln s, mu, ln tau[, c]) after validation, sub-sampling and the selection cut
+ * of `opts`; for tests and checks. `dim` is 6 when the data have dz.
+ */
+export function hierarchicalLogPosterior(objs: HierarchicalData, opts: HierarchicalOptions): { logPost: (theta: Float64Array) => number; dim: number } {
+  const st = setup(objs, opts);
+  return { logPost: st.logPost, dim: st.dim };
+}
+
 /** Objects above which the mode search starts on an evenly strided subset of about this many. */
 const PRESOLVE_OBJECTS = 2000;
 
