@@ -12,6 +12,7 @@ import { PosterityError, formatProblem, type Problem } from '../src/lib/core/pro
 import { loadBundle } from '../src/lib/bundle/load.ts';
 import { buildRelease, PROJECT_ROOT } from '../src/lib/release/build.ts';
 import { serveStatic } from './serve.ts';
+import { truthForBuild } from './demo/truth.ts';
 
 const USAGE = `usage:
   posterity check <bundle-folder>
@@ -95,15 +96,9 @@ async function cmdCheck(args: Args): Promise<number> {
 
 async function cmdBuild(bundle: string, out: string, quiet: boolean, truthFile?: string, summaries?: string): Promise<number> {
   try {
-    let truth;
-    if (truthFile && existsSync(truthFile)) {
-      // a mock's true relations, shown beside the fits
-      const t = JSON.parse(readFileSync(truthFile, 'utf8')) as { relations?: Record<string, { bins: { a: number; aMeanStarForming: number | null; b: number; scatter: number }[] }> };
-      truth = Object.fromEntries(
-        Object.entries(t.relations ?? {}).map(([name, r]) => [name, r.bins.map((b) => ({ a: b.a, b: b.b, s: b.scatter }))]),
-      );
-    }
-    const s = await buildRelease(resolve(bundle), { out, progress: progressPrinter(quiet), truth, summaries });
+    // a mock's truth (the demo's truth.json), shown beside the fits
+    const { truth, massFunctionTruth } = truthFile ? truthForBuild(truthFile) : {};
+    const s = await buildRelease(resolve(bundle), { out, progress: progressPrinter(quiet), truth, massFunctionTruth, summaries });
     if (!quiet) {
       if (s.warnings.length) {
         process.stderr.write(`${s.warnings.length} warning(s):\n`);

@@ -12,6 +12,7 @@ import { describe, it, expect, beforeAll } from 'vitest';
 import { mkdirSync, readFileSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { generateDemoBundle } from '../../scripts/demo/generate.ts';
+import { truthForBuild } from '../../scripts/demo/truth.ts';
 import { runPipeline } from '../../src/lib/pipeline/run.ts';
 import { PROJECT_ROOT } from '../../src/lib/release/build.ts';
 import { normalCdf } from '../../src/lib/core/stats/special.ts';
@@ -30,8 +31,7 @@ beforeAll(async () => {
   // the default demo (2400 galaxies), as `npm run demo` builds it
   const { dir } = await generateDemoBundle(join(ROOT, 'bundle'), {});
   truth = JSON.parse(readFileSync(join(dir, 'truth.json'), 'utf8'));
-  const relTruth = Object.fromEntries(Object.entries(truth.relations).map(([n, r]) => [n, r.bins.map((b) => ({ a: b.a, b: b.b, s: b.scatter }))]));
-  await runPipeline(dir, { contentDir: CONTENT, downloadsDir: join(CONTENT, 'downloads'), truth: relTruth });
+  await runPipeline(dir, { contentDir: CONTENT, downloadsDir: join(CONTENT, 'downloads'), ...truthForBuild(join(dir, 'truth.json')) });
 }, 1_200_000);
 
 const read = <T>(p: string): T => JSON.parse(readFileSync(join(CONTENT, p), 'utf8')) as T;

@@ -32,6 +32,8 @@ export interface PipelineOptions {
   progress?: (stage: string, done: number, total: number) => void;
   /** Truth of a mock, for display (relation truth per bin). */
   truth?: Parameters<typeof runPopulation>[0]['truth'];
+  /** A mock's generating Schechter function at redshift z (for display beside the measured mass function). */
+  massFunctionTruth?: (z: number) => { phiStar: number; logMStar: number; alpha: number };
   /** Summaries merged from partials (`posterity merge`), used instead of summarising again; `source` names them in errors. */
   summaries?: { merged: MergedSummary; source: string };
 }
@@ -126,6 +128,8 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
       bins: r.bins.map((b) => ({ zLo: b.zLo, zHi: b.zHi, n: b.n, completenessLogM: b.completenessLogM, fits: b.fits, running: b.running })),
     })),
   });
+  if (evidence.massfunction && opts.massFunctionTruth)
+    for (const b of evidence.massfunction.bins) b.truth = opts.massFunctionTruth((b.zLo + b.zHi) / 2);
   if (evidence.massfunction) await writeJson(join(dl, 'massfunction.json'), evidence.massfunction);
   if (evidence.quality.isMock) await writeJson(join(dl, 'calibration.json'), { calibration: evidence.quality.calibration });
   await writeJson(join(dl, 'release.json'), {

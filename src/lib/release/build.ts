@@ -19,6 +19,7 @@ export interface BuildOptions {
   progress?: PipelineOptions['progress'];
   log?: (line: string) => void;
   truth?: PipelineOptions['truth'];
+  massFunctionTruth?: PipelineOptions['massFunctionTruth'];
   /** Keep a copy of the derived content here (default: none). */
   keepContent?: string;
   /** Folder of merged summaries (`posterity merge --out`), used instead of summarising again. */
@@ -131,7 +132,7 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     const contentDir = join(stage, 'content');
     const downloadsDir = join(contentDir, 'downloads'); // copied into the site by the relative-urls integration
     const summaries = opts.summaries ? await readSummaries(opts.summaries) : undefined;
-    const result = await runPipeline(resolve(bundleDir), { contentDir, downloadsDir, progress: opts.progress, truth: opts.truth, summaries });
+    const result = await runPipeline(resolve(bundleDir), { contentDir, downloadsDir, progress: opts.progress, truth: opts.truth, massFunctionTruth: opts.massFunctionTruth, summaries });
     opts.progress?.('figures', 0, 1);
     const { prerenderFigures } = await import('../charts/prerender.ts');
     await prerenderFigures(contentDir, {});
