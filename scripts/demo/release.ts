@@ -118,7 +118,7 @@ export function buildRelease(t: DemoTruth, params: ParamSpec[]): ReleaseConfig {
     ],
     populations: { kind: 'ssfr', threshold: SSFR_THRESHOLD },
     quality: { ...QUALITY },
-    site: { objectPageLimit: 50000, shardSize: 500 },
+    site: { objectPageLimit: 50000, shardSize: 50 },
     seed: t.seed,
   };
 }

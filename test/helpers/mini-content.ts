@@ -400,7 +400,7 @@ export async function writeMiniContent(dir: string, opts: MiniOptions = {}): Pro
   const json = (p: string, v: unknown) => writeFile(join(dir, p), JSON.stringify(v, null, 1) + '\n');
 
   const objects = FAKES.map((f, i) => objectContent(f, i, mock));
-  const index: ObjectIndexEntry[] = objects.map((o) => ({ id: o.id, slug: o.slug, ra: o.ra, dec: o.dec, redshift: o.redshift, flags: o.flags, population: o.population }));
+  const index: ObjectIndexEntry[] = objects.map((o, i) => ({ id: o.id, slug: o.slug, index: i, ra: o.ra, dec: o.dec, redshift: o.redshift, flags: o.flags, population: o.population }));
   const columns: ColumnDoc[] = [
     { name: 'id', unit: '', ucd: 'meta.id;meta.main', description: 'Object identifier', type: 'string' },
     { name: 'ra', unit: 'deg', ucd: 'pos.eq.ra;meta.main', description: 'Right ascension (ICRS)', type: 'double' },
@@ -421,6 +421,8 @@ export async function writeMiniContent(dir: string, opts: MiniOptions = {}): Pro
     descriptionHtml: '<p>Posterior summaries for <strong>three</strong> galaxies, for testing. Strings like <code>&lt;script&gt;</code> stay escaped.</p>\n<ul><li>Photometry in 12 bands</li><li>One grism spectrum</li></ul>\n',
     citation: { text: 'Doe, J. & Roe, R. (2025), Mini Deep Field SED Catalogue, v1.0.0.', bibtex: '@misc{mini2025,\n  author = {Doe, J. and Roe, R.},\n  title = {Mini Deep Field SED Catalogue},\n  year = {2025},\n  version = {1.0.0}\n}' },
     licence: 'CC-BY-4.0',
+    objectPages: { mode: 'static', shardSize: 50, limit: 50000 },
+    quality: { minEss: 50, minChi2Pvalue: 0.001, priorEdgeWidth: 0.02, priorEdgeMass: 0.2, multimodalMinMass: 0.1, outlierTension: 3 },
     doi: '10.0000/example.mini',
     changelog: [
       { version: '1.0.0', date: '2025-06-01', notes: 'First public release.' },

@@ -182,7 +182,7 @@ export const Release = z
          */
         objectPageLimit: z.number().int().positive().default(50000),
         /** Objects per shard file in viewer mode. */
-        shardSize: z.number().int().positive().default(500),
+        shardSize: z.number().int().positive().default(50),
       })
       .strict()
       .prefault({}),
