@@ -126,45 +126,72 @@ export function marginalPosterior(d: DeconvolvedData, pivot: number): (theta: Fl
   let ybar = 0;
   for (let i = 0; i < n; i++) ybar += d.y[i];
   ybar /= n;
-  const dx = new Float64Array(n);
-  const yc = new Float64Array(n);
+  const k: PlainKernel = { dx: new Float64Array(n), yc: new Float64Array(n), cxx: d.cxx, cyy: d.cyy, cxy: d.cxy, acc: new Float64Array(5) };
   for (let i = 0; i < n; i++) {
-    dx[i] = d.x[i] - pivot;
-    yc[i] = d.y[i] - ybar;
+    k.dx[i] = d.x[i] - pivot;
+    k.yc[i] = d.y[i] - ybar;
   }
-  const { cxx, cyy, cxy } = d;
+  const acc = k.acc;
   return (theta, blob) => {
     const b = theta[0];
     const lnS = theta[1];
     if (!Number.isFinite(b) || !(lnS > -50 && lnS < 50)) return -Infinity;
     const s2 = Math.exp(2 * lnS);
-    let sw = 0, swr = 0, swr2 = 0, sumLog = 0, prod = 1;
-    const twoB = 2 * b;
-    const b2 = b * b;
-    for (let i = 0; i < n; i++) {
-      const v = s2 + cyy[i] - twoB * cxy[i] + b2 * cxx[i];
-      if (!(v > 0)) return -Infinity;
-      const w = 1 / v;
-      const r = yc[i] - b * dx[i];
-      const wr = w * r;
-      sw += w;
-      swr += wr;
-      swr2 += wr * r;
-      // sum of ln V in batches: one logarithm per batch of products
-      prod *= v;
-      if (prod > 1e150 || prod < 1e-150) {
-        sumLog += Math.log(prod);
-        prod = 1;
-      }
+    acc.fill(0);
+    acc[4] = 1;
+    // blocks in their own function, as in `marginalPosteriorWithCovariate`
+    for (let lo = 0; lo < n; lo += KERNEL_BLOCK) {
+      if (!accumulatePlain(k, lo, Math.min(n, lo + KERNEL_BLOCK), s2, b)) return -Infinity;
     }
-    sumLog += Math.log(prod);
+    const sw = acc[0], swr = acc[1], swr2 = acc[2];
+    const sumLog = acc[3] + Math.log(acc[4]);
     const q = swr2 - (swr * swr) / sw;
     if (blob.length >= 2) {
       blob[0] = ybar + swr / sw;
       blob[1] = 1 / Math.sqrt(sw);
     }
-    return -0.5 * (sumLog + q + Math.log(sw)) - 1.5 * Math.log1p(b2) + lnS;
+    return -0.5 * (sumLog + q + Math.log(sw)) - 1.5 * Math.log1p(b * b) + lnS;
   };
+}
+
+interface PlainKernel {
+  dx: Float64Array;
+  yc: Float64Array;
+  cxx: Float64Array;
+  cyy: Float64Array;
+  cxy: Float64Array;
+  /** Running sums (S, Swr, Swr2, sum of ln V so far, pending product of V). */
+  acc: Float64Array;
+}
+
+/** Adds objects [lo, hi) to the sums of `marginalPosterior`; false when some V <= 0. */
+function accumulatePlain(k: PlainKernel, lo: number, hi: number, s2: number, b: number): boolean {
+  const { dx, yc, cxx, cyy, cxy, acc } = k;
+  let sw = acc[0], swr = acc[1], swr2 = acc[2], sumLog = acc[3], prod = acc[4];
+  const twoB = 2 * b;
+  const b2 = b * b;
+  for (let i = lo; i < hi; i++) {
+    const v = s2 + cyy[i] - twoB * cxy[i] + b2 * cxx[i];
+    if (!(v > 0)) return false;
+    const w = 1 / v;
+    const r = yc[i] - b * dx[i];
+    const wr = w * r;
+    sw += w;
+    swr += wr;
+    swr2 += wr * r;
+    // sum of ln V in batches: one logarithm per batch of products
+    prod *= v;
+    if (prod > 1e150 || prod < 1e-150) {
+      sumLog += Math.log(prod);
+      prod = 1;
+    }
+  }
+  acc[0] = sw;
+  acc[1] = swr;
+  acc[2] = swr2;
+  acc[3] = sumLog;
+  acc[4] = prod;
+  return true;
 }
 
 /**
@@ -189,43 +216,35 @@ export function marginalPosteriorWithCovariate(d: DeconvolvedData, pivot: number
   }
   ybar /= n;
   zbar /= n;
-  const dx = new Float64Array(n);
-  const yc = new Float64Array(n);
-  const zc = new Float64Array(n);
+  const k: CovariateKernel = {
+    dx: new Float64Array(n),
+    yc: new Float64Array(n),
+    zc: new Float64Array(n),
+    cxx: d.cxx,
+    cyy: d.cyy,
+    cxy: d.cxy,
+    acc: new Float64Array(8),
+  };
   for (let i = 0; i < n; i++) {
-    dx[i] = d.x[i] - pivot;
-    yc[i] = d.y[i] - ybar;
-    zc[i] = dzIn[i] - zbar;
+    k.dx[i] = d.x[i] - pivot;
+    k.yc[i] = d.y[i] - ybar;
+    k.zc[i] = dzIn[i] - zbar;
   }
-  const { cxx, cyy, cxy } = d;
+  const acc = k.acc;
   return (theta, blob) => {
     const b = theta[0];
     const lnS = theta[1];
     if (!Number.isFinite(b) || !(lnS > -50 && lnS < 50)) return -Infinity;
     const s2 = Math.exp(2 * lnS);
-    let sw = 0, swz = 0, swzz = 0, swr = 0, swzr = 0, swr2 = 0, sumLog = 0, prod = 1;
-    const twoB = 2 * b;
-    const b2 = b * b;
-    for (let i = 0; i < n; i++) {
-      const v = s2 + cyy[i] - twoB * cxy[i] + b2 * cxx[i];
-      if (!(v > 0)) return -Infinity;
-      const w = 1 / v;
-      const r = yc[i] - b * dx[i];
-      const wr = w * r;
-      const wz = w * zc[i];
-      sw += w;
-      swz += wz;
-      swzz += wz * zc[i];
-      swr += wr;
-      swzr += wz * r;
-      swr2 += wr * r;
-      prod *= v;
-      if (prod > 1e150 || prod < 1e-150) {
-        sumLog += Math.log(prod);
-        prod = 1;
-      }
+    acc.fill(0);
+    acc[7] = 1;
+    // the object loop runs in blocks in its own function, which the engine then optimises as a
+    // whole (a single long loop is compiled on-stack mid-loop, without feedback for the code after it)
+    for (let lo = 0; lo < n; lo += KERNEL_BLOCK) {
+      if (!accumulateWithCovariate(k, lo, Math.min(n, lo + KERNEL_BLOCK), s2, b)) return -Infinity;
     }
-    sumLog += Math.log(prod);
+    const sw = acc[0], swz = acc[1], swzz = acc[2], swr = acc[3], swzr = acc[4], swr2 = acc[5];
+    const sumLog = acc[6] + Math.log(acc[7]);
     const det = sw * swzz - swz * swz;
     if (!(det > 0)) return -Infinity;
     // M^-1 = [[Szz, -Sz], [-Sz, S]] / det
@@ -245,8 +264,59 @@ export function marginalPosteriorWithCovariate(d: DeconvolvedData, pivot: number
       blob[3] = l21;
       blob[4] = Math.sqrt(Math.max(scc - l21 * l21, 0));
     }
-    return -0.5 * (sumLog + q + Math.log(det)) - 1.5 * Math.log1p(b2) + lnS;
+    return -0.5 * (sumLog + q + Math.log(det)) - 1.5 * Math.log1p(b * b) + lnS;
   };
+}
+
+/** Objects per call of the accumulation kernel. */
+const KERNEL_BLOCK = 4096;
+
+interface CovariateKernel {
+  dx: Float64Array;
+  yc: Float64Array;
+  zc: Float64Array;
+  cxx: Float64Array;
+  cyy: Float64Array;
+  cxy: Float64Array;
+  /** Running sums (S, Sz, Szz, Swr, Swzr, Swr2, sum of ln V so far, pending product of V). */
+  acc: Float64Array;
+}
+
+/** Adds objects [lo, hi) to the sums of `marginalPosteriorWithCovariate`; false when some V <= 0. */
+function accumulateWithCovariate(k: CovariateKernel, lo: number, hi: number, s2: number, b: number): boolean {
+  const { dx, yc, zc, cxx, cyy, cxy, acc } = k;
+  let sw = acc[0], swz = acc[1], swzz = acc[2], swr = acc[3], swzr = acc[4], swr2 = acc[5], sumLog = acc[6], prod = acc[7];
+  const twoB = 2 * b;
+  const b2 = b * b;
+  for (let i = lo; i < hi; i++) {
+    const v = s2 + cyy[i] - twoB * cxy[i] + b2 * cxx[i];
+    if (!(v > 0)) return false;
+    const w = 1 / v;
+    const r = yc[i] - b * dx[i];
+    const wr = w * r;
+    const wz = w * zc[i];
+    sw += w;
+    swz += wz;
+    swzz += wz * zc[i];
+    swr += wr;
+    swzr += wz * r;
+    swr2 += wr * r;
+    // sum of ln V in batches: one logarithm per batch of products
+    prod *= v;
+    if (prod > 1e150 || prod < 1e-150) {
+      sumLog += Math.log(prod);
+      prod = 1;
+    }
+  }
+  acc[0] = sw;
+  acc[1] = swz;
+  acc[2] = swzz;
+  acc[3] = swr;
+  acc[4] = swzr;
+  acc[5] = swr2;
+  acc[6] = sumLog;
+  acc[7] = prod;
+  return true;
 }
 
 /**
