@@ -103,6 +103,7 @@ export function buildRelease(t: DemoTruth, params: ParamSpec[]): ReleaseConfig {
         methods: ['deconvolved', 'hierarchical', 'mixture', 'running-median', 'naive'],
         reference: 'speagle2014',
         aboveCompleteness: true,
+        redshiftTerm: false,
       },
       {
         name: 'dust_mass',
@@ -114,6 +115,7 @@ export function buildRelease(t: DemoTruth, params: ParamSpec[]): ReleaseConfig {
         pivot: 10,
         methods: ['deconvolved', 'running-median', 'naive'],
         aboveCompleteness: true,
+        redshiftTerm: false,
       },
     ],
     populations: { kind: 'ssfr', threshold: SSFR_THRESHOLD },

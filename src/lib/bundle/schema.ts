@@ -87,6 +87,12 @@ export const Relation = z
     reference: ReferenceRelation.optional(),
     /** Fit only above the mass-completeness limit (when a magnitude limit is declared). */
     aboveCompleteness: z.boolean().default(true),
+    /**
+     * Add a within-bin evolution term c (z - z_centre) to every fit, so a is the relation at the
+     * bin centre. Off by default: it trades a bias from evolution inside wide bins for a
+     * slope-evolution degeneracy in narrow or thinly populated ones.
+     */
+    redshiftTerm: z.boolean().default(false),
   })
   .strict();
 

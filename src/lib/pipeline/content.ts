@@ -259,9 +259,12 @@ export interface BinFit {
 export interface MethodFit {
   method: string;
   n: number;
+  /** Intercept at x = pivot and at the bin's central redshift. */
   a: Estimate;
   b: Estimate;
   s: Estimate;
+  /** Within-bin evolution: the coefficient of (z - z_centre), when fitted. */
+  c?: Estimate;
   diagnostics: Record<string, number | number[] | string>;
   warnings: string[];
 }

@@ -31,6 +31,8 @@ export function hierarchicalIfAvailable(
   rel: RelationConfig, inp: PopulationInputs, idx: number[], ix: number, iy: number, seed: number, warnings: string[],
   /** Completeness cut on x (the sample holds only galaxies above it): modelled in the likelihood. */
   xMin?: number,
+  /** Redshift offset of each selected object from the bin centre (the within-bin evolution term). */
+  dz?: Float64Array,
 ): { fit: MethodFit; raw: RelationFit } | null {
   const { pop, config } = inp;
   const m = pop.m;
@@ -55,7 +57,7 @@ export function hierarchicalIfAvailable(
     }
     offsets[s + 1] = o;
   }
-  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 12, nSteps: stepsFor(o * 12, 1.2e8, 300, 1500), ...(xMin !== undefined ? { selection: { xMin } } : {}) });
+  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets, ...(dz ? { dz } : {}) }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 12, nSteps: stepsFor(o * 12, 2.5e8, 600, 2000), ...(xMin !== undefined ? { selection: { xMin } } : {}) });
   let small = 0;
   for (const e of fit.effectiveDraws) if (e < 5) small++;
   if (small > 0) fit.warnings.push(`${small} of ${nSel} objects have fewer than 5 effective draws carrying the likelihood; their marginal likelihoods are noisy`);
@@ -65,6 +67,7 @@ export function hierarchicalIfAvailable(
     method: 'hierarchical',
     n: fit.n,
     a: fit.a, b: fit.b, s: fit.s,
+    ...(fit.c ? { c: fit.c } : {}),
     diagnostics: {
       ...Object.fromEntries(Object.entries(fit.diagnostics).filter(([, v]) => v !== undefined)) as Record<string, number | number[]>,
       meanEffectiveDraws: Number(mean.toFixed(2)),
@@ -135,6 +138,7 @@ export function mixtureFit(d: DeconvolvedData, pivot: number, seed: number): { f
       a: f.a,
       b: f.b,
       s: f.s,
+      ...(f.c ? { c: f.c } : {}),
       diagnostics: {
         ...(Object.fromEntries(Object.entries(f.diagnostics).filter(([, v]) => v !== undefined)) as Record<string, number | number[]>),
         sequenceFraction: Number(f.sequenceFraction.median.toFixed(4)),

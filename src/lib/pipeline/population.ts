@@ -41,7 +41,7 @@ const est = (e: Estimate): Estimate => ({ median: e.median, lo: e.lo, hi: e.hi }
 function methodFit(f: RelationFit, diag: Record<string, number | number[] | string> = {}): MethodFit {
   const d: Record<string, number | number[] | string> = { ...diag };
   for (const [k, v] of Object.entries(f.diagnostics)) if (v !== undefined) d[k] = v as number | number[];
-  return { method: f.method, n: f.n, a: est(f.a), b: est(f.b), s: est(f.s), diagnostics: d, warnings: f.warnings };
+  return { method: f.method, n: f.n, a: est(f.a), b: est(f.b), s: est(f.s), ...(f.c ? { c: est(f.c) } : {}), diagnostics: d, warnings: f.warnings };
 }
 
 /** MCMC length from a work budget (likelihood terms), so small bins get long chains and big ones stay fast. */
@@ -142,8 +142,13 @@ function binMembers(rel: RelationConfig, inp: PopulationInputs, completeness: { 
   return { ix, iy, inBin, aboveLimit };
 }
 
-function deconvolvedData(inp: PopulationInputs, idx: number[], ix: number, iy: number) {
-  const { summary } = inp;
+/**
+ * Each galaxy's posterior mean and 2x2 covariance, and its redshift offset from the bin centre:
+ * the relation evolves inside a bin, and in a flux-limited sample low-mass galaxies sit at its
+ * low-redshift end, so every fit carries a linear term c (z - zc) and a is the relation at zc.
+ */
+function deconvolvedData(inp: PopulationInputs, idx: number[], ix: number, iy: number, zc: number | null) {
+  const { summary, objects } = inp;
   const k = summary.k;
   const c = (i: number, r: number, q: number) => summary.cov[i * k * k + r * k + q];
   return {
@@ -152,6 +157,7 @@ function deconvolvedData(inp: PopulationInputs, idx: number[], ix: number, iy: n
     cxx: Float64Array.from(idx, (i) => c(i, ix, ix)),
     cyy: Float64Array.from(idx, (i) => c(i, iy, iy)),
     cxy: Float64Array.from(idx, (i) => c(i, ix, iy)),
+    ...(zc !== null ? { dz: Float64Array.from(idx, (i) => objects.redshift[i] - zc) } : {}),
   };
 }
 
@@ -161,7 +167,8 @@ function sequenceMembership(rel: RelationConfig, inp: PopulationInputs, complete
   const { ix, iy, aboveLimit } = binMembers(rel, inp, completeness);
   const fits = aboveLimit.map((all, b) => {
     if (all.length < 10) return null;
-    const mf = extra.mixtureFit(deconvolvedData(inp, all, ix, iy), rel.pivot, deriveSeed(inp.config.seed, rel.name, b, 'mixture'));
+    const zc = rel.redshiftTerm ? 0.5 * (rel.zBins[b] + rel.zBins[b + 1]) : null;
+    const mf = extra.mixtureFit(deconvolvedData(inp, all, ix, iy, zc), rel.pivot, deriveSeed(inp.config.seed, rel.name, b, 'mixture'));
     all.forEach((i, j) => (membership[i] = mf.membership[j]));
     return mf.fit;
   });
@@ -218,13 +225,8 @@ function fitRelation(
       bins.push(bin);
       continue;
     }
-    const d = {
-      x: Float64Array.from(idx, (i) => xMean[i]),
-      y: Float64Array.from(idx, (i) => yMean[i]),
-      cxx: Float64Array.from(idx, (i) => covAt(i, ix, ix)),
-      cyy: Float64Array.from(idx, (i) => covAt(i, iy, iy)),
-      cxy: Float64Array.from(idx, (i) => covAt(i, ix, iy)),
-    };
+    const zc = 0.5 * (zLo + zHi);
+    const d = deconvolvedData(inp, idx, ix, iy, rel.redshiftTerm ? zc : null);
     const seed = deriveSeed(config.seed, rel.name, b);
     let preferred: RelationFit | null = null;
     if (rel.methods.includes('deconvolved')) {
@@ -232,14 +234,14 @@ function fitRelation(
       bin.fits.push(methodFit(f));
       preferred = f;
     }
-    const hier = rel.methods.includes('hierarchical') ? extra.hierarchicalIfAvailable(rel, inp, idx, ix, iy, seed, warnings, ix === iM && Number.isFinite(lim) && rel.aboveCompleteness ? lim : undefined) : null;
+    const hier = rel.methods.includes('hierarchical') ? extra.hierarchicalIfAvailable(rel, inp, idx, ix, iy, seed, warnings, ix === iM && Number.isFinite(lim) && rel.aboveCompleteness ? lim : undefined, d.dz) : null;
     if (hier) {
       bin.fits.push(hier.fit);
       preferred = hier.raw;
     }
     if (rel.methods.includes('naive')) {
       const med = { x: Float64Array.from(idx, (i) => summary.p50[ix][i]), y: Float64Array.from(idx, (i) => summary.p50[iy][i]) };
-      bin.fits.push(methodFit(fitNaive(med.x, med.y, rel.pivot, seed)));
+      bin.fits.push(methodFit(fitNaive(med.x, med.y, rel.pivot, seed, d.dz)));
     }
     const mix = mixtureFits?.[b];
     if (mix) bin.fits.push(mix);
@@ -255,9 +257,9 @@ function fitRelation(
       const band = credibleBand(preferred, xs);
       bin.band = { method: preferred.method, x: Array.from(band.x), lo: Array.from(band.lo), mid: Array.from(band.mid), hi: Array.from(band.hi) };
       // offsets and tensions for every object in the bin (selected or not)
-      const a = preferred.a.median, bb = preferred.b.median, s = preferred.s.median;
+      const a = preferred.a.median, bb = preferred.b.median, s = preferred.s.median, cz = preferred.c?.median ?? 0;
       for (const i of inBin[b]) {
-        const off = yMean[i] - (a + bb * (xMean[i] - rel.pivot));
+        const off = yMean[i] - (a + bb * (xMean[i] - rel.pivot) + cz * (objects.redshift[i] - zc));
         const v = s * s + covAt(i, iy, iy) - 2 * bb * covAt(i, ix, iy) + bb * bb * covAt(i, ix, ix);
         offset[i] = off;
         tension[i] = off / Math.sqrt(v);

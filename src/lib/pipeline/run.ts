@@ -122,7 +122,7 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
       y: r.y.name,
       population: r.population,
       pivot: r.pivot,
-      model: 'y = a + b (x - pivot) + N(0, s^2)',
+      model: 'y = a + b (x - pivot) + c (z - z_centre) + N(0, s^2), per redshift bin; a is the relation at the bin centre',
       interimPrior: r.priorUsed,
       selection: config.relations.find((c) => c.name === r.name)!.aboveCompleteness ? 'population, redshift bin and above the mass-completeness limit' : 'population and redshift bin',
       bins: r.bins.map((b) => ({ zLo: b.zLo, zHi: b.zHi, n: b.n, completenessLogM: b.completenessLogM, fits: b.fits, running: b.running })),

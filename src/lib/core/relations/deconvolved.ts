@@ -330,7 +330,10 @@ function accumulateWithCovariate(k: CovariateKernel, lo: number, hi: number, s2:
  * the Gaussian-x model of Kelly 2007, ApJ 665, 1489), so when x errors, or their correlation
  * with y errors, are not small compared with the spread of x the slope is biased by about
  * `predictedSlopeBias`, as in least squares; the fit warns when that exceeds half a posterior
- * sd, and the hierarchical fit (which models the x distribution) should be preferred.
+ * sd, and the hierarchical fit (which models the x distribution) should be preferred. With
+ * `d.dz` the mean is a + b (x - pivot) + c dz and (a, c) are both marginalised analytically
+ * (`marginalPosteriorWithCovariate`); the result then has `c` and `drawsC`, and c is the
+ * fourth entry of the diagnostics.
  */
 export function fitDeconvolved(d: DeconvolvedData, opts: DeconvolvedOptions): RelationFit {
   const n = validate(d);

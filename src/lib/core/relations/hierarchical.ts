@@ -30,7 +30,7 @@ export interface HierarchicalData extends ObjectDraws {
 export interface HierarchicalOptions {
   pivot: number;
   seed: number;
-  /** Default 16 (>= 10 for the 5 parameters). */
+  /** Default 16 (>= 10 for the 5 parameters, >= 12 for the 6 with dz). */
   nWalkers?: number;
   /** Default 300; the first fifth is discarded as burn-in. */
   nSteps?: number;

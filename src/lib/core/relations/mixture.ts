@@ -109,10 +109,9 @@ export function fitMixture(d: DeconvolvedData, opts: MixtureOptions): MixtureFit
 
   // start: least squares for the sequence, the broad component at the y mean with twice the spread
   const plane = dz ? leastSquaresWithCovariate(d.x, d.y, pivot, dz) : undefined;
-  const line = plane ? undefined : weightedLeastSquares(d.x, d.y, pivot);
   const ols = plane
-    ? { a: plane.a, b: plane.b, chi2: plane.chi2 * (n - 2) / (n - 3), varA: plane.cov[0], varB: plane.cov[4] }
-    : (line as NonNullable<typeof line>);
+    ? { a: plane.a, b: plane.b, chi2: (plane.chi2 * (n - 2)) / (n - 3), varA: plane.cov[0], varB: plane.cov[4] }
+    : weightedLeastSquares(d.x, d.y, pivot);
   let my = 0;
   for (let i = 0; i < n; i++) my += d.y[i];
   my /= n;
