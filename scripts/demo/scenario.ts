@@ -58,7 +58,7 @@ export function drawHyper(rng: Rng): Hyper {
       b: r2(around(rng, 0.8, 0.05)),
       scatter: r2(around(rng, 0.3, 0.02)),
       pivot: 10,
-      quiescentOffset: r2(around(rng, -1.45, 0.05)),
+      quiescentOffset: r2(around(rng, -1.8, 0.05)),
       quiescentScatter: 0.35,
     },
     dust: { c: r2(around(rng, 1.2, 0.05)), d: r2(around(rng, 0.45, 0.05)), scatter: r2(around(rng, 0.25, 0.02)), pivot: 10, quiescentSigma: 0.2 },
