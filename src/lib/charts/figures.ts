@@ -43,6 +43,19 @@ export const FIGURES = Object.freeze({
 });
 
 /** The PNG written beside a figure that has one. */
+/** Site-level figures offered for download (SVG, and PNG at print resolution where rasterised). */
+export const DOWNLOADABLE_FIGURES: readonly string[] = [
+  'home/sky.svg',
+  'home/redshift.svg',
+  'home/mass.svg',
+  'quality/ess.svg',
+  'quality/pvalue.svg',
+  'quality/flags.svg',
+  'quality/flags-by-redshift.svg',
+  'quality/coverage.svg',
+  'quality/pit.svg',
+];
+
 export function pngOf(svgPath: string): string {
   return svgPath.replace(/\.svg$/, '.png');
 }
@@ -65,9 +78,9 @@ export function siteFigureJobs(
   thresholds: { ess?: number; pvalue?: number } = {},
 ): FigureJob[] {
   const jobs: FigureJob[] = [];
-  if (site.sky.cells.length) jobs.push({ path: FIGURES.sky, spec: skySpec(site) });
-  if (site.redshiftHist.counts.length) jobs.push({ path: FIGURES.redshift, spec: redshiftSpec(site) });
-  if (site.massHist.edges.length > 1) jobs.push({ path: FIGURES.mass, spec: massSpec(site) });
+  if (site.sky.cells.length) jobs.push({ path: FIGURES.sky, spec: skySpec(site), png: true });
+  if (site.redshiftHist.counts.length) jobs.push({ path: FIGURES.redshift, spec: redshiftSpec(site), png: true });
+  if (site.massHist.edges.length > 1) jobs.push({ path: FIGURES.mass, spec: massSpec(site), png: true });
   for (const r of relations) {
     jobs.push({ path: FIGURES.relation(r.name), spec: relationSpec(r), png: true });
     r.bins.forEach((_, i) => jobs.push({ path: FIGURES.relationPanel(r.name, i), spec: relationPanelSpec(r, i) }));
@@ -75,13 +88,13 @@ export function siteFigureJobs(
   }
   if (quality) {
     const labels = Object.fromEntries(site.flags.map((f) => [f.name, f.label]));
-    jobs.push({ path: FIGURES.qualityEss, spec: essSpec(quality, thresholds.ess) });
-    jobs.push({ path: FIGURES.qualityPvalue, spec: pvalueSpec(quality, thresholds.pvalue) });
-    if (quality.flagCounts.length) jobs.push({ path: FIGURES.qualityFlags, spec: flagsSpec(quality) });
-    if (quality.flagsByRedshift.length) jobs.push({ path: FIGURES.qualityFlagsByRedshift, spec: flagsByRedshiftSpec(quality, labels) });
+    jobs.push({ path: FIGURES.qualityEss, spec: essSpec(quality, thresholds.ess), png: true });
+    jobs.push({ path: FIGURES.qualityPvalue, spec: pvalueSpec(quality, thresholds.pvalue), png: true });
+    if (quality.flagCounts.length) jobs.push({ path: FIGURES.qualityFlags, spec: flagsSpec(quality), png: true });
+    if (quality.flagsByRedshift.length) jobs.push({ path: FIGURES.qualityFlagsByRedshift, spec: flagsByRedshiftSpec(quality, labels), png: true });
     if (quality.calibration.length) {
-      jobs.push({ path: FIGURES.qualityCoverage, spec: coverageSpec(quality) });
-      jobs.push({ path: FIGURES.qualityPit, spec: pitSpec(quality) });
+      jobs.push({ path: FIGURES.qualityCoverage, spec: coverageSpec(quality), png: true });
+      jobs.push({ path: FIGURES.qualityPit, spec: pitSpec(quality), png: true });
     }
   }
   if (massFunction && massFunction.bins.length) jobs.push({ path: FIGURES.massFunction, spec: massFunctionSpec(massFunction), png: true });
