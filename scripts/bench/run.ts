@@ -29,8 +29,12 @@ function task(name: string, args: string[], timeoutS = 3600): Promise<Result | {
     let err = '';
     child.stdout.on('data', (d) => (out += d));
     child.stderr.on('data', (d) => (err += d));
-    const timer = setTimeout(() => child.kill('SIGKILL'), timeoutS * 1000);
-    child.on('close', (code) => {
+    let timedOut = false;
+    const timer = setTimeout(() => {
+      timedOut = true;
+      child.kill('SIGKILL');
+    }, timeoutS * 1000);
+    child.on('close', (code, signal) => {
       clearTimeout(timer);
       const line = out.split('\n').find((l) => l.startsWith('BENCH-RESULT '));
       const secs = ((Date.now() - t0) / 1000).toFixed(0);
@@ -38,7 +42,7 @@ function task(name: string, args: string[], timeoutS = 3600): Promise<Result | {
         process.stderr.write(`${secs} s\n`);
         ok(JSON.parse(line.slice('BENCH-RESULT '.length)));
       } else {
-        const why = code === null ? `killed after ${timeoutS} s` : `exit ${code}: ${err.trim().split('\n').slice(-3).join(' | ')}`;
+        const why = timedOut ? `killed after ${timeoutS} s` : code === null ? `killed by ${signal} (out of memory?)` : `exit ${code}: ${err.trim().split('\n').slice(-3).join(' | ')}`;
         process.stderr.write(`failed (${why})\n`);
         ok({ error: why });
       }

@@ -3,7 +3,7 @@
  * Units, descriptions and UCDs travel as field metadata (`unit`, `description`, `ucd`).
  */
 import { createReadStream } from 'node:fs';
-import { writeFile } from 'node:fs/promises';
+import { open, writeFile } from 'node:fs/promises';
 import * as arrow from 'apache-arrow';
 import type { Column, ColumnKind, Table } from './table.ts';
 import { PosterityError } from '../core/problems.ts';
@@ -128,9 +128,21 @@ function convertVector(vec: arrow.Vector, field: arrow.Field, file: string): Col
 /** Stream an Arrow IPC file or stream as one table per record batch. */
 export async function* readArrowBatches(path: string, opts: ArrowReadOptions = {}): AsyncGenerator<Table> {
   const file = opts.file ?? path;
+  let handle: import('node:fs/promises').FileHandle | null = null;
   let reader: arrow.RecordBatchReader | arrow.AsyncRecordBatchStreamReader | arrow.AsyncRecordBatchFileReader;
   try {
-    reader = await arrow.RecordBatchReader.from(createReadStream(path));
+    // The IPC file format is read by random access through a file handle, one record batch at a
+    // time, so memory stays bounded; the stream format is read as a stream.
+    const fh = await open(path, 'r');
+    const magic = Buffer.alloc(6);
+    await fh.read(magic, 0, 6, 0);
+    if (magic.toString('latin1') === 'ARROW1') {
+      handle = fh;
+      reader = await arrow.RecordBatchReader.from(fh as never);
+    } else {
+      await fh.close();
+      reader = await arrow.RecordBatchReader.from(createReadStream(path, { highWaterMark: 1 << 20 }));
+    }
     await reader.open();
   } catch (e) {
     throw new PosterityError({ severity: 'error', file, message: `not a readable Arrow IPC file (${(e as Error).message})` });
@@ -149,6 +161,9 @@ export async function* readArrowBatches(path: string, opts: ArrowReadOptions = {
   } catch (e) {
     if (e instanceof PosterityError) throw e;
     throw new PosterityError({ severity: 'error', file, message: `cannot read the Arrow data (${(e as Error).message}); is the file truncated or corrupt?` });
+  }
+  finally {
+    await handle?.close();
   }
   if (!any) {
     const fields = reader.schema?.fields ?? [];

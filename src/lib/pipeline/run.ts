@@ -3,6 +3,7 @@
  * return plain data: load, summarise, population, evidence, then write.
  */
 import { mkdir, writeFile } from 'node:fs/promises';
+import { existsSync, mkdirSync, readFileSync, rmSync, unlinkSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { gzipSync } from 'node:zlib';
 import { loadBundle, type Bundle } from '../bundle/load.ts';
@@ -58,12 +59,13 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
   await mkdir(join(contentDir, 'relations'), { recursive: true });
   await mkdir(dl, { recursive: true });
 
-  // summaries; corner data kept per object until the pages are written
-  const charts: (ObjectCharts | null)[] = new Array(n).fill(null);
+  // summaries; each object's corner data waits on disk until its page is written, so memory
+  // does not grow with the catalogue
+  const charts = new ChartSpool(join(contentDir, '.spool'), n);
   const { table: summary, pop } = opts.summaries ? await givenSummaries(bundle, opts.summaries, charts) : await summariseAll(bundle, {
     seed: config.seed,
     onCharts: (i, c) => {
-      charts[i] = c;
+      charts.set(i, c);
       if (i % 200 === 0) progress('summarise', i, n);
     },
   });
@@ -165,8 +167,7 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
   let shard: string[] = [];
   if (viewer) await mkdir(join(contentDir, 'objects', 'shards'), { recursive: true });
   for (let i = 0; i < n; i++) {
-    const oc = objectContent(ctx, i, charts[i]);
-    charts[i] = null;
+    const oc = objectContent(ctx, i, charts.take(i));
     if (viewer) {
       shard.push(JSON.stringify(oc));
       if (shard.length === shardSize || i === n - 1) {
@@ -180,6 +181,7 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
     if (i % 200 === 0) progress('objects', i, n);
   }
   progress('objects', n, n);
+  charts.close();
   await writeJson(join(contentDir, 'objects', 'index.json'), index);
   for (const r of popResult.relations) await writeJson(join(contentDir, 'relations', `${r.name}.json`), r);
 
@@ -254,7 +256,7 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
 }
 
 /** Merged summaries checked against the bundle (same inputs, tool version, objects and parameters); their corner data goes into `charts`. */
-async function givenSummaries(bundle: Bundle, given: NonNullable<PipelineOptions['summaries']>, charts: (ObjectCharts | null)[]): Promise<Pick<MergedSummary, 'table' | 'pop'>> {
+async function givenSummaries(bundle: Bundle, given: NonNullable<PipelineOptions['summaries']>, charts: ChartSpool): Promise<Pick<MergedSummary, 'table' | 'pop'>> {
   const { summaryMeta } = await import('./summarise-partition.ts');
   const want = summaryMeta(bundle);
   const { meta, table } = given.merged;
@@ -269,8 +271,33 @@ async function givenSummaries(bundle: Bundle, given: NonNullable<PipelineOptions
   if (table.n !== bundle.objects.n || JSON.stringify(meta.params) !== JSON.stringify(want.params))
     problems.push({ severity: 'error', file, field: 'params', message: 'summaries of other objects or parameters', expected: `${bundle.objects.n} objects, parameters ${want.params.join(', ')}`, got: `${table.n} objects, parameters ${meta.params.join(', ')}` });
   if (problems.length) throw new PosterityError(problems);
-  given.merged.charts?.forEach((c, i) => (charts[i] = c));
+  given.merged.charts?.forEach((c, i) => c && charts.set(i, c));
   return given.merged;
+}
+
+/** Corner data of each object, held in a spool folder between summarising and page writing. */
+class ChartSpool {
+  constructor(
+    private readonly dir: string,
+    n: number,
+  ) {
+    rmSync(dir, { recursive: true, force: true });
+    mkdirSync(dir, { recursive: true });
+    void n;
+  }
+  set(i: number, c: ObjectCharts): void {
+    writeFileSync(join(this.dir, `${i}.json`), JSON.stringify(c));
+  }
+  take(i: number): ObjectCharts | null {
+    const f = join(this.dir, `${i}.json`);
+    if (!existsSync(f)) return null;
+    const c = JSON.parse(readFileSync(f, 'utf8')) as ObjectCharts;
+    unlinkSync(f);
+    return c;
+  }
+  close(): void {
+    rmSync(this.dir, { recursive: true, force: true });
+  }
 }
 
 /** Shard file name of a shard number: zero-padded so names sort in catalogue order. */
