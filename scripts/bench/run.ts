@@ -4,10 +4,12 @@
  * and `bench/results/bench.json` and prints the Markdown.
  *
  * Options: `--sizes 10000,100000` (default), `--workers N` (default: one per core),
- * `--no-pipeline` (skip the whole-pipeline run), `--cache DIR` (default bench/cache).
+ * `--no-pipeline` (skip the whole-pipeline run), `--cache DIR` (default bench/cache),
+ * `--pages N` (objects of the site-build rows, default 200), `--only pages` (run only the
+ * site-build rows; the other rows are left out of the report).
  */
 import { spawn } from 'node:child_process';
-import { mkdir, writeFile } from 'node:fs/promises';
+import { mkdir, readFile, writeFile } from 'node:fs/promises';
 import { availableParallelism, cpus, loadavg, totalmem } from 'node:os';
 import { join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -69,6 +71,8 @@ export async function main(argv: string[]): Promise<number> {
   const sizes = (opt('--sizes') ?? '10000,100000').split(',').map(Number);
   const workers = String(opt('--workers') ?? availableParallelism());
   const cache = resolve(ROOT, opt('--cache') ?? 'bench/cache');
+  const only = opt('--only');
+  const pagesN = opt('--pages') ?? '200';
   const doPipeline = !argv.includes('--no-pipeline');
   const started = new Date();
   process.stderr.write(`posterity bench: ${sizes.join(', ')} objects x ${DRAWS} draws x ${PARAMS} parameters, ${workers} workers\n`);
@@ -76,8 +80,8 @@ export async function main(argv: string[]): Promise<number> {
   const raw: Record<string, unknown> = {};
   const run = async (key: string, name: string, args: string[], timeoutS?: number) => (raw[key] = await task(name, args, timeoutS)) as Result | { error: string };
 
-  for (const n of sizes) await run(`gen.${n}`, 'gen', [cache, String(n)], 7200);
-  for (const n of sizes) {
+  if (!only) for (const n of sizes) await run(`gen.${n}`, 'gen', [cache, String(n)], 7200);
+  if (!only) for (const n of sizes) {
     const p = bundlePaths(cache, n);
     raw[`load.${n}`] = loadavg()[0];
     await run(`scan.arrow.${n}`, 'scan', [p.arrow]);
@@ -87,17 +91,20 @@ export async function main(argv: string[]): Promise<number> {
     await run(`summarise.parquet.${n}`, 'summarise', [p.parquet, workers]);
     await run(`duckdb.${n}`, 'duckdb', [p.parquet]);
   }
-  await run('kernel', 'kernel', [bundlePaths(cache, sizes[0]).arrow, '400']);
-  await run('deconvolved', 'deconvolved', ['100000']);
-  await run('hierarchical', 'hierarchical', ['20000', '256'], 1200);
-  if (doPipeline) await run('pipeline', 'pipeline', [bundlePaths(cache, sizes[0]).full, '10'], 3600);
+  if (!only) {
+    await run('kernel', 'kernel', [bundlePaths(cache, sizes[0]).arrow, '400']);
+    await run('deconvolved', 'deconvolved', ['100000']);
+    await run('hierarchical', 'hierarchical', ['20000', '256'], 1200);
+    if (doPipeline) await run('pipeline', 'pipeline', [bundlePaths(cache, sizes[0]).full, '10'], 3600);
+  }
+  if (!only || only === 'pages') await run('pages', 'pages', [pagesN, '10'], 1800);
 
   // ---- the report ------------------------------------------------------------------------
   const get = (key: string): Result | null => (isErr(raw[key]) || !raw[key] ? null : (raw[key] as Result));
   const rows: Row[] = [];
   const big = sizes[sizes.length - 1], small = sizes[0];
   const ratio = (a: Result | null, b: Result | null) => (a && b ? a.seconds / b.seconds : NaN);
-  for (const n of sizes) {
+  if (!only) for (const n of sizes) {
     for (const fmt of ['arrow', 'parquet'] as const) {
       const s = get(`summarise.${fmt}.${n}`), sc = get(`scan.${fmt}.${n}`);
       const r = ratio(s, sc);
@@ -127,7 +134,7 @@ export async function main(argv: string[]): Promise<number> {
     const ld = get(`summarise.arrow.${n}`);
     rows.push({ what: `bundle load without samples (objects; SHA-256 of every input), ${n} objects`, value: `${f(ld?.loadSeconds, 1)} s`, target: '', status: ld ? 'info' : 'failed', note: 'not part of the summaries time above' });
   }
-  if (sizes.length > 1) {
+  if (!only && sizes.length > 1) {
     const ex = (a: number, b: number) => Math.log(b / a) / Math.log(big / small);
     for (const fmt of ['arrow', 'parquet'] as const) {
       const s0 = get(`summarise.${fmt}.${small}`), s1 = get(`summarise.${fmt}.${big}`);
@@ -141,11 +148,11 @@ export async function main(argv: string[]): Promise<number> {
     }
   }
   const dc = get('deconvolved');
-  rows.push({ what: 'deconvolved relation fit, 10^5 objects', value: dc ? `${f(dc.seconds, 2)} s (${dc.nWalkers} walkers x ${dc.nSteps} steps)` : 'n/a', target: '< 5 s', status: !dc ? 'failed' : dc.seconds < 5 ? 'met' : 'missed' });
+  if (!only) rows.push({ what: 'deconvolved relation fit, 10^5 objects', value: dc ? `${f(dc.seconds, 2)} s (${dc.nWalkers} walkers x ${dc.nSteps} steps)` : 'n/a', target: '< 5 s', status: !dc ? 'failed' : dc.seconds < 5 ? 'met' : 'missed' });
   const hi = get('hierarchical');
-  rows.push({ what: 'hierarchical relation fit, 2x10^4 objects x 256 draws', value: hi ? `${f(hi.seconds, 1)} s (${hi.nWalkers} walkers x ${hi.nSteps} steps)` : `n/a (${(raw.hierarchical as { error?: string })?.error ?? ''})`, target: '< 60 s', status: !hi ? 'failed' : hi.seconds < 60 ? 'met' : 'missed' });
+  if (!only) rows.push({ what: 'hierarchical relation fit, 2x10^4 objects x 256 draws', value: hi ? `${f(hi.seconds, 1)} s (${hi.nWalkers} walkers x ${hi.nSteps} steps)` : `n/a (${(raw.hierarchical as { error?: string })?.error ?? ''})`, target: '< 60 s', status: !hi ? 'failed' : hi.seconds < 60 ? 'met' : 'missed' });
   const pl = get('pipeline');
-  if (doPipeline) {
+  if (!only && doPipeline) {
     rows.push({ what: `whole runPipeline, ${small} objects (samples loaded whole by the loader)`, value: pl ? `${f(pl.seconds, 0)} s, peak ${f(pl.maxRssMB / 1024, 2)} GB` : 'n/a', target: '', status: pl ? 'info' : 'failed', note: pl ? `stages (s): ${Object.entries(pl.stages as Record<string, number>).map(([k, v]) => `${k} ${v.toFixed(0)}`).join(', ')}` : undefined });
     rows.push({ what: 'object-page figures (SVG prerender) per object', value: pl?.chartSecondsPerObject != null ? `${f(pl.chartSecondsPerObject * 1000, 0)} ms (${pl.figuresRendered} figures for 10 objects)` : `n/a${pl?.chartError ? ` (${pl.chartError})` : ''}`, target: '', status: pl?.chartSecondsPerObject != null ? 'info' : 'failed' });
   }
@@ -159,14 +166,47 @@ export async function main(argv: string[]): Promise<number> {
       note: `corner data JSON: ${(k.chartJsonBytesPerObject / 1024).toFixed(0)} KB per object`,
     });
   }
-  rows.push({ what: 'object page build time / trivial Astro page', value: '', target: '<= 2x', status: 'not measured yet', note: 'to be added by the site engineer' });
-  rows.push({ what: 'bytes per object page (HTML plus its data, gzipped)', value: '', target: '<= 40 KB', status: 'not measured yet', note: 'to be added by the site engineer' });
+  if (!only || only === 'pages') {
+    const pg = get('pages');
+    const pgErr = (raw.pages as { error?: string } | undefined)?.error;
+    rows.push({
+      what: `object page build time / trivial Astro page, ${pg?.objects ?? pagesN} objects (Astro build only)`,
+      value: pg ? `${f(pg.ratio)}x (${f(pg.real.msPerPage, 1)} ms / ${f(pg.trivial.msPerPage, 1)} ms per page)` : `n/a${pgErr ? ` (${pgErr})` : ''}`,
+      target: '<= 2x',
+      status: !pg ? 'failed' : pg.ratio <= 2 ? 'met' : 'missed',
+      note: pg
+        ? `per page = difference of two builds over the difference in pages, so each build's fixed start-up cancels: real ${f(pg.real.secondsN, 1)} s (${pg.real.objectPagesN} object pages, ${pg.real.htmlPagesN} HTML in all) - ${f(pg.real.secondsSmall, 1)} s (${pg.real.objectPagesSmall}-object demo, the smallest); trivial ${f(pg.trivial.secondsN, 1)} s (${pg.objects} pages) - ${f(pg.trivial.seconds1, 1)} s (1 page). Pipeline and figure prerender run first, not timed (${f(pg.real.prepSecondsN, 0)} s)`
+        : undefined,
+    });
+    rows.push({
+      what: `bytes per object page (HTML plus its data, gzipped), ${pg?.objects ?? pagesN} objects`,
+      value: pg ? `average ${f(pg.avgGzipBytes / 1024, 1)} KB, max ${f(pg.maxGzipBytes / 1024, 1)} KB` : 'n/a',
+      target: '<= 40 KB',
+      status: !pg ? 'failed' : pg.maxGzipBytes <= 40 * 1024 ? 'met' : 'missed',
+      note: pg ? `gzip level 9 of objects/<slug>/index.html plus the per-object files it loads (${pg.dataFiles}: static mode, figures inline); uncompressed average ${f(pg.avgRawBytes / 1024, 0)} KB; target judged on the max` : undefined,
+    });
+  }
 
+  // --only: keep the other rows of the previous full report, marked as such
+  const dir = join(ROOT, 'bench', 'results');
+  let kept = '';
+  if (only) {
+    try {
+      const prev = JSON.parse(await readFile(join(dir, 'bench.json'), 'utf8')) as { started: string; rows: Row[]; raw: Record<string, unknown>; sizes?: number[] };
+      const mine = new Set(rows.map((r) => r.what.split(',')[0]));
+      const others = prev.rows.filter((r) => !mine.has(r.what.split(',')[0]));
+      rows.unshift(...others);
+      for (const [key, v] of Object.entries(prev.raw ?? {})) if (!(key in raw)) raw[key] = v;
+      kept = ` Only \`${only}\` was run now; the other ${others.length} rows are from the run of ${prev.started}.`;
+    } catch {
+      /* no previous report: just this task's rows */
+    }
+  }
   const machine = `${cpus().length} x ${cpus()[0]?.model ?? 'cpu'}, ${(totalmem() / 2 ** 30).toFixed(0)} GB, Node ${process.version}`;
   const md = [
     '# Posterity benchmark',
     '',
-    `Run ${started.toISOString()} on ${machine}; ${workers} summary workers; every ratio measured in this run. Bundles: the demo generator, ${DRAWS} draws x ${PARAMS} parameters per object (samples: 8 float32 parameters, float64 weight and log prior, float32 log likelihood, string id), cached under bench/cache/.`,
+    `Run ${started.toISOString()} on ${machine}; ${workers} summary workers; every ratio measured in this run. Bundles: the demo generator, ${DRAWS} draws x ${PARAMS} parameters per object (samples: 8 float32 parameters, float64 weight and log prior, float32 log likelihood, string id), cached under bench/cache/.${kept}`,
     '',
     '| measurement | value | target | status | note |',
     '| --- | --- | --- | --- | --- |',
@@ -175,7 +215,6 @@ export async function main(argv: string[]): Promise<number> {
     'Raw scan: `readTableBatches` over the columns the summaries read (id, 8 parameters, weight, log prior), summing every value (ids: their lengths). Summaries: `summariseAll` on a bundle loaded without samples, streaming the file, without corner data. DuckDB: `read_parquet` grouped by id, weighted mean and one-pass weighted standard deviation of the 8 parameters.',
     '',
   ].join('\n');
-  const dir = join(ROOT, 'bench', 'results');
   await mkdir(dir, { recursive: true });
   await writeFile(join(dir, 'bench.md'), md);
   await writeFile(join(dir, 'bench.json'), JSON.stringify({ started: started.toISOString(), machine, workers: Number(workers), sizes, rows, raw }, null, 2) + '\n');

@@ -233,6 +233,7 @@ export async function runTask(name: string, args: string[]): Promise<Record<stri
     case 'hierarchical': return hierarchical(args[0], args[1]);
     case 'duckdb': return duckdb(args[0]);
     case 'pipeline': return pipeline(args[0], args[1]);
+    case 'pages': return (await import('./pages.ts')).pages(args[0], args[1]);
     default: throw new Error(`unknown bench task ${name}`);
   }
 }

@@ -6,7 +6,7 @@
  */
 import { spawn } from 'node:child_process';
 import { existsSync, rmSync } from 'node:fs';
-import { mkdir, rename, rm } from 'node:fs/promises';
+import { cp, mkdir, rename, rm } from 'node:fs/promises';
 import { basename, dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { runPipeline, type PipelineOptions } from '../pipeline/run.ts';
@@ -33,6 +33,8 @@ export interface BuildSummary {
   seconds: number;
   pages: number;
   files: number;
+  /** Figures rendered in this build and reused unchanged from the previous build of the same output. */
+  figures: { rendered: number; reused: number };
   bytes: number;
   downloadBytes: number;
 }
@@ -124,6 +126,7 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
   const out = resolve(opts.out);
   const log = opts.log ?? (() => {});
   const stage = join(dirname(out), `.posterity-tmp-${basename(out)}-${process.pid}`);
+  let figures = { rendered: 0, reused: 0 };
   installSignalHandlers();
   staging.add(stage);
   try {
@@ -135,7 +138,12 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     const result = await runPipeline(resolve(bundleDir), { contentDir, downloadsDir, progress: opts.progress, truth: opts.truth, massFunctionTruth: opts.massFunctionTruth, summaries });
     opts.progress?.('figures', 0, 1);
     const { prerenderFigures } = await import('../charts/prerender.ts');
-    await prerenderFigures(contentDir, {});
+    // figures of the previous build of this output are reused where their spec did not change
+    const figureCache = join(dirname(out), `.posterity-cache-${basename(out)}`, 'figures');
+    if (existsSync(figureCache)) await cp(figureCache, join(contentDir, 'figures'), { recursive: true });
+    const fig = await prerenderFigures(contentDir, {});
+    figures = { rendered: fig.rendered, reused: fig.cached };
+    opts.log?.(`figures: ${fig.rendered} rendered, ${fig.cached} reused from the previous build`);
     opts.progress?.('figures', 1, 1);
     opts.progress?.('site', 0, 1);
     const siteDir = join(stage, 'site');
@@ -146,12 +154,16 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
       await rm(opts.keepContent, { recursive: true, force: true });
       await rename(contentDir, resolve(opts.keepContent));
     }
+    // keep the figures for the next build, then swap into place
+    await rm(figureCache, { recursive: true, force: true });
+    await mkdir(dirname(figureCache), { recursive: true });
+    if (existsSync(join(contentDir, 'figures'))) await cp(join(contentDir, 'figures'), figureCache, { recursive: true });
     // swap into place
     const old = join(dirname(out), `.posterity-old-${basename(out)}-${process.pid}`);
     if (existsSync(out)) await rename(out, old);
     await rename(siteDir, out);
     await rm(old, { recursive: true, force: true });
-    return { objects: result.objects, out, warnings: result.warnings, seconds: (Date.now() - t0) / 1000, ...(await siteStats(out)) };
+    return { objects: result.objects, out, warnings: result.warnings, seconds: (Date.now() - t0) / 1000, figures, ...(await siteStats(out)) };
   } finally {
     await rm(stage, { recursive: true, force: true });
     staging.delete(stage);
