@@ -315,7 +315,7 @@ describeWithPython('agreement with astropy.cosmology', ['astropy', 'scipy'], () 
     const r = runPython(ASTROPY_CODE, { cases, zs: ZS, dls }) as { version: string; results: AstropyResult[] };
     results = r.results;
   });
-  // The brief asks for 1e-6; observed agreement is about 1e-11 (astropy uses elliptic integrals for
+  // The requirement is 1e-6; observed agreement is about 1e-11 (astropy uses elliptic integrals for
   // flat models without radiation and scipy quad otherwise), so 1e-9 still leaves a wide margin.
   const TOL = 1e-9;
   it.each(cases.map((c, i) => [c.name, i] as const))('%s', (_, i) => {
