@@ -10,6 +10,7 @@
  * radix sort for float32 and integer columns), so a filter is one pass over it.
  * Filtering and sorting only; no statistics.
  */
+import { createPlot } from './explorer-plot.ts';
 import { slugOf } from '../lib/core/slug.ts';
 import { angularSeparationDeg, parseAngleArcsec, parseCoordinate } from '../lib/core/sky.ts';
 import { FLAG_INFO, describeFlags } from '../lib/core/flags.ts';
@@ -32,6 +33,9 @@ interface State {
   radius: string;
   ranges: Record<string, [string, string]>;
   cols: string[] | null;
+  /** Columns of the linked x-y view. */
+  px?: string;
+  py?: string;
 }
 
 const ROW_H = 28;
@@ -69,6 +73,7 @@ function csvCell(s: string): string {
   return /[",\n\r]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
 }
 
+
 export function readState(search: string): State {
   const p = new URLSearchParams(search);
   const ranges: Record<string, [string, string]> = {};
@@ -89,6 +94,8 @@ export function readState(search: string): State {
     radius: p.get('radius') ?? '',
     ranges,
     cols: p.get('cols') ? (p.get('cols') as string).split(',') : null,
+    px: p.get('px') ?? undefined,
+    py: p.get('py') ?? undefined,
   };
 }
 
@@ -106,6 +113,8 @@ export function stateQuery(s: State): string {
     if (lo || hi) p.set(`r.${k}`, `${lo}~${hi}`);
   }
   if (s.cols) p.set('cols', s.cols.join(','));
+  if (s.px) p.set('px', s.px);
+  if (s.py) p.set('py', s.py);
   return p.toString();
 }
 
@@ -336,6 +345,63 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
   const defaults = ['id', 'ra', 'dec', 'redshift', ...params.slice(0, 2), 'population', 'flags'].filter((c) => byName.has(c));
   let visible = (state.cols ?? defaults).filter((c) => byName.has(c));
   if (!visible.length) visible = defaults;
+
+  // linked x-y view above the table
+  const numericNames = cols.filter((c) => c.numeric).map((c) => c.name);
+  let plotX = state.px && byName.has(state.px) ? state.px : params[0] ?? numericNames[0];
+  let plotY = state.py && byName.has(state.py) ? state.py : params[1] ?? numericNames[1] ?? numericNames[0];
+  const plotFig = el('figure', { class: 'explorer-plot' });
+  const plotBar = el('div', { class: 'plot-bar' });
+  const xSel = el('select', { name: 'plotx', 'aria-label': 'Plot x column' });
+  const ySel = el('select', { name: 'ploty', 'aria-label': 'Plot y column' });
+  for (const nm of numericNames) {
+    xSel.append(el('option', { value: nm }, nm));
+    ySel.append(el('option', { value: nm }, nm));
+  }
+  xSel.value = plotX;
+  ySel.value = plotY;
+  const clearBox = el('button', { type: 'button' }, 'Clear box');
+  const xl = el('label', {}, 'x ');
+  xl.append(xSel);
+  const yl = el('label', {}, ' y ');
+  yl.append(ySel);
+  plotBar.append(xl, yl, document.createTextNode(' '), clearBox);
+  const canvas = el('canvas', { role: 'img', 'aria-label': 'Density of the loaded objects in the chosen x-y plane, with the current selection in blue' });
+  const tip = el('p', { class: 'plot-tip', 'aria-live': 'polite' });
+  tip.hidden = true;
+  const plotCap = el('figcaption', {}, 'All loaded objects in grey, the current selection in blue. Drag a box to filter the table to it (the box becomes two range filters); filters of the table redraw the selection; hover a point for its values, click it to open its page.');
+  plotFig.append(plotBar, canvas, tip, plotCap);
+  viewport.parentElement!.insertBefore(plotFig, root.querySelector('.explorer-actions') ?? viewport);
+  const fmtN = (v: number) => (Number.isFinite(v) ? Number(v.toPrecision(4)).toString() : '—');
+  const drawPlot = createPlot(canvas, tip, {
+    onBrush(xr, yr) {
+      state.ranges[plotX] = [String(Number(xr[0].toPrecision(5))), String(Number(xr[1].toPrecision(5)))];
+      state.ranges[plotY] = [String(Number(yr[0].toPrecision(5))), String(Number(yr[1].toPrecision(5)))];
+      renderRanges();
+      void refresh();
+    },
+    onOpen: (r) => goTo(r),
+    describe: (r) => `${ids[r]}: ${plotX} ${fmtN((byName.get(plotX)!.values as ArrayLike<number>)[r])}, ${plotY} ${fmtN((byName.get(plotY)!.values as ArrayLike<number>)[r])}`,
+  });
+  const redrawPlot = () => {
+    const cx = byName.get(plotX), cy = byName.get(plotY);
+    if (!isReady(cx) || !isReady(cy)) return;
+    const rng = (k: string): [number, number] | null => {
+      const v = state.ranges[k];
+      if (!v) return null;
+      const lo = v[0] === '' ? NaN : Number(v[0]), hi = v[1] === '' ? NaN : Number(v[1]);
+      return Number.isFinite(lo) && Number.isFinite(hi) ? [lo, hi] : null;
+    };
+    drawPlot({ n: loaded, x: cx.values as ArrayLike<number>, y: cy.values as ArrayLike<number>, selection: order, xRange: rng(plotX), yRange: rng(plotY), xLabel: cx.unit ? `${plotX} [${cx.unit}]` : plotX, yLabel: cy.unit ? `${plotY} [${cy.unit}]` : plotY });
+  };
+  xSel.addEventListener('change', () => { plotX = xSel.value; state.px = plotX; void refresh(); });
+  ySel.addEventListener('change', () => { plotY = ySel.value; state.py = plotY; void refresh(); });
+  clearBox.addEventListener('click', () => {
+    delete state.ranges[plotX];
+    delete state.ranges[plotY];
+    renderRanges();
+    void refresh();
+  });
 
   // column chooser, one fieldset a group
   const boxes: HTMLInputElement[] = [];
@@ -589,7 +655,7 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
   /** Load what the view needs (columns shown, sorted or filtered on), then compute and draw. */
   async function refresh(keepScroll = false): Promise<void> {
     const need = new Set<number>();
-    for (const nm of [...visible, state.sort, ...Object.keys(state.ranges)]) {
+    for (const nm of [...visible, state.sort, ...Object.keys(state.ranges), plotX, plotY]) {
       const c = byName.get(nm);
       if (c && !c.values && c.group !== 0) need.add(c.group);
     }
@@ -626,6 +692,7 @@ export async function startExplorer(root: HTMLElement): Promise<void> {
       status.append(el('a', { href: `${objectsBase}${slugOf(ids[exact])}/` }, `Open ${ids[exact]}`));
     }
     if (problem) status.append(` ${problem}`);
+    redrawPlot();
     root.dataset.lastUpdateMs = (performance.now() - t).toFixed(1);
     root.dataset.rows = String(order.length);
   }

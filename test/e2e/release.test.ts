@@ -123,6 +123,27 @@ describe.runIf(hasChromium())('in headless Chromium', () => {
     expect(Math.min(...r.charts)).toBeGreaterThan(3);
   });
 
+  it('brushing the catalogue x-y view filters the table, and the URL keeps the box', async () => {
+    const page = await browser.newPage({ viewport: { width: 1280, height: 1100 } });
+    const errors: string[] = [];
+    page.on('pageerror', (e) => errors.push(String(e)));
+    await page.goto(server.url + 'catalogue/', { waitUntil: 'networkidle' });
+    await page.waitForSelector('.explorer-plot canvas');
+    const before = Number(await page.getAttribute('[data-rows]', 'data-rows'));
+    const box = (await (await page.$('.explorer-plot canvas'))!.boundingBox())!;
+    await page.mouse.move(box.x + box.width * 0.45, box.y + box.height * 0.15);
+    await page.mouse.down();
+    await page.mouse.move(box.x + box.width * 0.85, box.y + box.height * 0.7, { steps: 5 });
+    await page.mouse.up();
+    await page.waitForFunction((n) => Number(document.querySelector('[data-rows]')?.getAttribute('data-rows')) < n, before);
+    const after = Number(await page.getAttribute('[data-rows]', 'data-rows'));
+    expect(after).toBeGreaterThan(0);
+    expect(after).toBeLessThan(before);
+    expect(page.url()).toMatch(/r\.log_mstar_p50=/);
+    expect(errors).toEqual([]);
+    await page.close();
+  });
+
   it('the relation page loads cleanly with its chart', async () => {
     const r = await visit('relations/main_sequence/', 'relation');
     expect(r.errors).toEqual([]);
