@@ -144,6 +144,45 @@ describe.runIf(hasChromium())('in headless Chromium', () => {
     await page.close();
   });
 
+  it('brushing the relation plot lists the galaxies inside, and clicking a point opens its page', async () => {
+    const page = await browser.newPage({ viewport: { width: 1280, height: 1000 } });
+    const errors: string[] = [];
+    page.on('pageerror', (e) => errors.push(String(e)));
+    await page.goto(server.url + 'relations/main_sequence/', { waitUntil: 'networkidle' });
+    await page.locator('.linked').scrollIntoViewIfNeeded();
+    await page.waitForSelector('.linked-live:not([hidden]) canvas, .linked-live:not([hidden]) svg', { timeout: 30_000 });
+    const live = (await (await page.$('.linked-live'))!.boundingBox())!;
+    await page.mouse.move(live.x + live.width * 0.15, live.y + live.height * 0.1);
+    await page.mouse.down();
+    await page.mouse.move(live.x + live.width * 0.85, live.y + live.height * 0.85, { steps: 8 });
+    await page.mouse.up();
+    await page.waitForSelector('.linked-table:not([hidden]) tbody tr', { timeout: 10_000 });
+    expect(await page.locator('.linked-table tbody tr').count()).toBeGreaterThan(0);
+    // a fresh view (no brush); hover until the tooltip names a point, then click it
+    await page.goto(server.url + 'relations/main_sequence/', { waitUntil: 'networkidle' });
+    await page.locator('.linked').scrollIntoViewIfNeeded();
+    await page.waitForSelector('.linked-live:not([hidden]) canvas, .linked-live:not([hidden]) svg', { timeout: 30_000 });
+    const view = (await (await page.$('.linked-live'))!.boundingBox())!;
+    const start = page.url();
+    let opened = false;
+    outer: for (let py = view.y + view.height * 0.1; py < view.y + view.height * 0.9; py += 6)
+      for (let px = view.x + view.width * 0.1; px < view.x + view.width * 0.9; px += 6) {
+        await page.mouse.move(px, py);
+        if (await page.locator('.linked-tip:not([hidden])').count()) {
+          await page.mouse.down();
+          await page.mouse.up();
+          await page.waitForURL((u) => u.toString() !== start, { timeout: 5000 }).catch(() => undefined);
+          opened = page.url() !== start;
+          break outer;
+        }
+      }
+    if (opened) await page.waitForLoadState('domcontentloaded');
+    expect(opened).toBe(true);
+    expect(page.url()).toMatch(/\/objects\/[^/]+\/$/);
+    expect(errors).toEqual([]);
+    await page.close();
+  });
+
   it('the relation page loads cleanly with its chart', async () => {
     const r = await visit('relations/main_sequence/', 'relation');
     expect(r.errors).toEqual([]);
