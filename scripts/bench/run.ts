@@ -11,7 +11,7 @@
 import { spawn } from 'node:child_process';
 import { mkdir, readFile, writeFile } from 'node:fs/promises';
 import { availableParallelism, cpus, loadavg, totalmem } from 'node:os';
-import { join, resolve } from 'node:path';
+import { join, resolve, sep } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { bundlePaths, DRAWS, PARAMS } from './data.ts';
 
@@ -221,7 +221,10 @@ export async function main(argv: string[]): Promise<number> {
   ].join('\n');
   await mkdir(dir, { recursive: true });
   await writeFile(join(dir, 'bench.md'), md);
-  await writeFile(join(dir, 'bench.json'), JSON.stringify({ started: started.toISOString(), ...(othersFrom ? { only, othersFrom } : {}), machine, workers: Number(workers), sizes, rows, raw }, null, 2) + '\n');
+  // paths in the report are relative to the repository, never this machine's absolute paths
+  const root = resolve(dir, '..', '..') + sep;
+  const repoRelative = (_k: string, v: unknown) => (typeof v === 'string' && v.startsWith(root) ? v.slice(root.length) : v);
+  await writeFile(join(dir, 'bench.json'), JSON.stringify({ started: started.toISOString(), ...(othersFrom ? { only, othersFrom } : {}), machine, workers: Number(workers), sizes, rows, raw }, repoRelative, 2) + '\n');
   process.stdout.write(md);
   return anyFailed ? 1 : 0;
 }
