@@ -79,6 +79,18 @@ function bootstrapBands(out: RunningMedian, medians: Float64Array[], m: number):
   }
 }
 
+/** Median and 16-84% spread of y in each bin (weights per value, or equal weights when null). */
+function fillSpread(out: RunningMedian, ys: number[][], ws: number[][] | null): void {
+  for (let b = 0; b < ys.length; b++) {
+    if (ys[b].length === 0) continue;
+    const w = ws ? Float64Array.from(ws[b]) : new Float64Array(ys[b].length).fill(1);
+    const q = weightedQuantiles(Float64Array.from(ys[b]), w, [0.16, 0.5, 0.84]);
+    out.p16[b] = q[0];
+    out.median[b] = q[1];
+    out.p84[b] = q[2];
+  }
+}
+
 /**
  * Running median from posterior draws. In each x bin the median and 16/84% points of y are
  * weighted quantiles over all draws whose x falls in the bin, each object's weights normalised
@@ -107,13 +119,7 @@ export function runningMedian(d: ObjectDraws, opts: RunningOptions): RunningMedi
       out.n[b] += d.w[j] / sw;
     }
   }
-  for (let b = 0; b < m; b++) {
-    if (byBinY[b].length === 0) continue;
-    const q = weightedQuantiles(Float64Array.from(byBinY[b]), Float64Array.from(byBinW[b]), [0.16, 0.5, 0.84]);
-    out.p16[b] = q[0];
-    out.median[b] = q[1];
-    out.p84[b] = q[2];
-  }
+  fillSpread(out, byBinY, byBinW);
   if (opts.nBoot === 0) return out;
   const rng = makeRng(deriveSeed(opts.seed, 'running-median'));
   const medians = Array.from({ length: m }, () => new Float64Array(opts.nBoot));
@@ -153,13 +159,7 @@ export function runningMedianPoints(x: Float64Array, y: Float64Array, opts: Runn
       out.n[bins[i]]++;
     }
   }
-  for (let b = 0; b < m; b++) {
-    if (byBin[b].length === 0) continue;
-    const q = weightedQuantiles(Float64Array.from(byBin[b]), new Float64Array(byBin[b].length).fill(1), [0.16, 0.5, 0.84]);
-    out.p16[b] = q[0];
-    out.median[b] = q[1];
-    out.p84[b] = q[2];
-  }
+  fillSpread(out, byBin, null);
   if (opts.nBoot === 0) return out;
   const rng = makeRng(deriveSeed(opts.seed, 'running-median-points'));
   const medians = Array.from({ length: m }, () => new Float64Array(opts.nBoot));
