@@ -106,7 +106,7 @@ async function cmdBuild(bundle: string, out: string, quiet: boolean, truthFile?:
       }
       const mb = (b: number) => `${(b / 1048576).toFixed(1)} MB`;
       process.stdout.write(
-        `built ${s.objects} objects into ${s.out} in ${s.seconds.toFixed(1)} s: ${s.pages} pages, ${s.files} files, ${mb(s.bytes)} (downloads ${mb(s.downloadBytes)}), figures ${s.figures.rendered} rendered and ${s.figures.reused} reused, ${s.warnings.length} warning(s)\n`,
+        `built ${s.objects} objects into ${s.out} in ${s.seconds.toFixed(1)} s: ${s.pages} pages, ${s.files} files, ${mb(s.bytes)} (downloads ${mb(s.downloadBytes)}), summaries ${s.summaries}, figures ${s.figures.rendered} rendered and ${s.figures.reused} reused, ${s.warnings.length} warning(s)\n`,
       );
     }
     return 0;

@@ -4,11 +4,13 @@
  * and `bench/results/bench.json` and prints the Markdown.
  *
  * Options: `--sizes 10000,100000` (default), `--workers N` (default: one per core),
- * `--no-pipeline` (skip the whole-pipeline run), `--cache DIR` (default bench/cache),
- * `--pages N` (objects of the site-build rows, default 200), `--only pages` (run only the
- * site-build rows; the other rows are left out of the report).
+ * `--no-pipeline` (skip the whole-build runs), `--cache DIR` (default bench/cache),
+ * `--pages N` (objects of the site-build rows, default 200), `--only pages` or `--only build`
+ * (run only the page rows, or only the whole builds; the other rows are kept from the previous
+ * report and marked with its date).
  */
 import { spawn } from 'node:child_process';
+import { existsSync } from 'node:fs';
 import { mkdir, readFile, writeFile } from 'node:fs/promises';
 import { availableParallelism, cpus, loadavg, totalmem } from 'node:os';
 import { join, resolve, sep } from 'node:path';
@@ -22,11 +24,17 @@ type Result = Record<string, any> & { maxRssMB: number };
 
 function task(name: string, args: string[], timeoutS = 3600): Promise<Result | { error: string }> {
   // the whole pipeline keeps every object's corner data until the pages are written: give it room
-  const flags = name === 'pipeline' ? ['--max-old-space-size=12288'] : [];
+  const flags = name === 'pipeline' || name === 'build' ? ['--max-old-space-size=12288'] : [];
+  // the whole build spawns the Astro build: GNU time reports the largest resident set of the
+  // task and the children it waited for (wait4's rusage), where the task alone cannot see them
+  const timed = name === 'build' && existsSync('/usr/bin/time');
   return new Promise((ok) => {
     const t0 = Date.now();
     process.stderr.write(`  ${name} ${args.map((a) => a.replace(ROOT + '/', '')).join(' ')} ... `);
-    const child = spawn(process.execPath, [...flags, TASK, name, ...args], { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
+    const argv = [...flags, TASK, name, ...args];
+    const child = timed
+      ? spawn('/usr/bin/time', ['-f', 'POSTERITY-MAXRSS-KB %M', process.execPath, ...argv], { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] })
+      : spawn(process.execPath, argv, { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
     let out = '';
     let err = '';
     child.stdout.on('data', (d) => (out += d));
@@ -42,7 +50,10 @@ function task(name: string, args: string[], timeoutS = 3600): Promise<Result | {
       const secs = ((Date.now() - t0) / 1000).toFixed(0);
       if (line) {
         process.stderr.write(`${secs} s\n`);
-        ok(JSON.parse(line.slice('BENCH-RESULT '.length)));
+        const r = JSON.parse(line.slice('BENCH-RESULT '.length));
+        const tree = /POSTERITY-MAXRSS-KB (\d+)/.exec(err);
+        if (tree) r.maxRssTreeMB = Number(tree[1]) / 1024;
+        ok(r);
       } else {
         const why = timedOut ? `killed after ${timeoutS} s` : code === null ? `killed by ${signal} (out of memory?)` : `exit ${code}: ${err.trim().split('\n').slice(-3).join(' | ')}`;
         process.stderr.write(`failed (${why})\n`);
@@ -95,7 +106,10 @@ export async function main(argv: string[]): Promise<number> {
     await run('kernel', 'kernel', [bundlePaths(cache, sizes[0]).arrow, '400']);
     await run('deconvolved', 'deconvolved', ['100000']);
     await run('hierarchical', 'hierarchical', ['20000', '256'], 1200);
-    if (doPipeline) await run('pipeline', 'pipeline', [bundlePaths(cache, sizes[0]).full, '10'], 3600);
+  }
+  if ((!only && doPipeline) || only === 'build') {
+    if (only) for (const n of sizes) await run(`gen.${n}`, 'gen', [cache, String(n)], 7200);
+    for (const n of sizes) await run(`build.${n}`, 'build', [bundlePaths(cache, n).full], 3 * 3600);
   }
   if (!only || only === 'pages') await run('pages', 'pages', [pagesN, '10'], 1800);
 
@@ -151,10 +165,39 @@ export async function main(argv: string[]): Promise<number> {
   if (!only) rows.push({ what: 'deconvolved relation fit, 10^5 objects', value: dc ? `${f(dc.seconds, 2)} s (${dc.nWalkers} walkers x ${dc.nSteps} steps)` : 'n/a', target: '< 5 s', status: !dc ? 'failed' : dc.seconds < 5 ? 'met' : 'missed' });
   const hi = get('hierarchical');
   if (!only) rows.push({ what: 'hierarchical relation fit, 2x10^4 objects x 256 draws', value: hi ? `${f(hi.seconds, 1)} s (${hi.nWalkers} walkers x ${hi.nSteps} steps)` : `n/a (${(raw.hierarchical as { error?: string })?.error ?? ''})`, target: '< 60 s', status: !hi ? 'failed' : hi.seconds < 60 ? 'met' : 'missed' });
-  const pl = get('pipeline');
-  if (!only && doPipeline) {
-    rows.push({ what: `whole runPipeline, ${small} objects (samples loaded whole by the loader)`, value: pl ? `${f(pl.seconds, 0)} s, peak ${f(pl.maxRssMB / 1024, 2)} GB` : 'n/a', target: '', status: pl ? 'info' : 'failed', note: pl ? `stages (s): ${Object.entries(pl.stages as Record<string, number>).map(([k, v]) => `${k} ${v.toFixed(0)}`).join(', ')}` : undefined });
-    rows.push({ what: 'object-page figures (SVG prerender) per object', value: pl?.chartSecondsPerObject != null ? `${f(pl.chartSecondsPerObject * 1000, 0)} ms (${pl.figuresRendered} figures for 10 objects)` : `n/a${pl?.chartError ? ` (${pl.chartError})` : ''}`, target: '', status: pl?.chartSecondsPerObject != null ? 'info' : 'failed' });
+  if ((!only && doPipeline) || only === 'build') {
+    for (const n of sizes) {
+      const b = get(`build.${n}`);
+      const err = (raw[`build.${n}`] as { error?: string } | undefined)?.error;
+      const peak = b ? (b.maxRssTreeMB ?? b.maxRssMB) : NaN;
+      rows.push({
+        what: `whole release build (pipeline, figures, Astro site), ${n} objects`,
+        value: b ? `${f(b.seconds, 0)} s, peak ${f(peak / 1024, 2)} GB (largest process)` : `n/a${err ? ` (${err})` : ''}`,
+        target: n === big ? 'completes on this machine' : '',
+        status: !b ? 'failed' : n === big ? 'met' : 'info',
+        note: b
+          ? `${b.mode} object pages; stages (s): ${Object.entries(b.stages as Record<string, number>).map(([k, v]) => `${k} ${v.toFixed(0)}`).join(', ')}; site ${f(b.siteBytes / 2 ** 30, 2)} GB in ${b.files} files (downloads ${f(b.downloadBytes / 2 ** 30, 2)} GB)${b.objectBytesGz != null ? `; per object in the viewer shards ${f(b.objectBytesGz / 1024, 1)} KB gzipped (${f(b.objectBytesRaw / 1024, 0)} KB raw)` : ''}`
+          : undefined,
+      });
+    }
+    const b0 = get(`build.${small}`), b1 = get(`build.${big}`);
+    const fs0 = (b0?.stages as Record<string, number> | undefined)?.figures;
+    rows.push({
+      what: `object-page figures (SVG prerender in worker threads, cached by each object's data), ${small} objects`,
+      value: b0 && fs0 !== undefined ? `${f((fs0 * 1000) / b0.objects, 1)} ms per object (${f(fs0, 0)} s in all)` : 'n/a',
+      target: '',
+      status: b0 ? 'info' : 'failed',
+      note: 'the figures stage of the whole build above, from an empty cache',
+    });
+    if (sizes.length > 1) {
+      const ex = (a: number, c: number) => Math.log(c / a) / Math.log(big / small);
+      rows.push({
+        what: `growth exponent ${small} -> ${big}, whole build: time, site bytes, peak memory`,
+        value: b0 && b1 ? `time ${f(ex(b0.seconds, b1.seconds))}; site ${f(ex(b0.siteBytes, b1.siteBytes))}; memory ${f(ex(b0.maxRssTreeMB ?? b0.maxRssMB, b1.maxRssTreeMB ?? b1.maxRssMB))}` : 'n/a',
+        target: 'time and size 1 (linear) or less',
+        status: b0 && b1 ? 'info' : 'failed',
+      });
+    }
   }
   const k = get('kernel');
   if (k) {

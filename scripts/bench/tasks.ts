@@ -222,6 +222,63 @@ async function pipeline(dir: string, figures: string) {
   }
 }
 
+/**
+ * The whole release build (pipeline, figure prerender, Astro site) of a bench bundle, as
+ * `posterity build` runs it; time per stage, the site's size and, in viewer mode, the bytes per
+ * object of the shards (gzipped). Peak memory is measured around this task's process and its
+ * children (the Astro build) by the runner.
+ */
+async function build(dir: string) {
+  const { buildRelease } = await import('../../src/lib/release/build.ts');
+  const { gzipSync } = await import('node:zlib');
+  const { readFile } = await import('node:fs/promises');
+  const out = await mkdtemp(join(tmpdir(), 'posterity-bench-build-'));
+  try {
+    const stages: Record<string, number> = {};
+    let stage = '';
+    let tStage = now();
+    const t0 = now();
+    const s = await buildRelease(dir, {
+      out: join(out, 'dist'),
+      progress: (name) => {
+        if (name !== stage) {
+          if (stage) stages[stage] = (stages[stage] ?? 0) + now() - tStage;
+          stage = name;
+          tStage = now();
+        }
+      },
+    });
+    if (stage) stages[stage] = (stages[stage] ?? 0) + now() - tStage;
+    const seconds = now() - t0;
+    const site = JSON.parse(await readFile(join(out, 'dist', 'objects', 'view', 'lookup.json'), 'utf8').catch(() => 'null'));
+    let shardGz = 0, shardRaw = 0, shards = 0;
+    const view = join(out, 'dist', 'objects', 'view');
+    const names = site ? (await readdir(view)).filter((f) => f.startsWith('shard-')) : [];
+    // every tenth shard, gzipped at level 9 (all of them would take as long as the build)
+    for (let i = 0; i < names.length; i += 10) {
+      const b = await readFile(join(view, names[i]));
+      shardRaw += b.length;
+      shardGz += gzipSync(b, { level: 9 }).length;
+      shards++;
+    }
+    const perShard = shards ? names.length / shards : 0;
+    return {
+      seconds,
+      stages,
+      objects: s.objects,
+      mode: site ? 'viewer' : 'static',
+      pages: s.pages,
+      files: s.files,
+      siteBytes: s.bytes,
+      downloadBytes: s.downloadBytes,
+      objectBytesGz: site ? (shardGz * perShard) / s.objects : null,
+      objectBytesRaw: site ? (shardRaw * perShard) / s.objects : null,
+    };
+  } finally {
+    await rm(out, { recursive: true, force: true });
+  }
+}
+
 export async function runTask(name: string, args: string[]): Promise<Record<string, unknown>> {
   switch (name) {
     case 'gen': return gen(args[0], args[1]);
@@ -233,6 +290,7 @@ export async function runTask(name: string, args: string[]): Promise<Record<stri
     case 'hierarchical': return hierarchical(args[0], args[1]);
     case 'duckdb': return duckdb(args[0]);
     case 'pipeline': return pipeline(args[0], args[1]);
+    case 'build': return build(args[0]);
     case 'pages': return (await import('./pages.ts')).pages(args[0], args[1]);
     default: throw new Error(`unknown bench task ${name}`);
   }

@@ -374,7 +374,17 @@ function permuteColumn(c: Column, perm: Int32Array): Column {
 }
 
 /** Load and check everything; returns the bundle or throws with every problem found. */
-export async function loadBundle(dir: string, opts: { samples?: boolean } = {}): Promise<Bundle> {
+/**
+ * Options of `loadBundle`. `samples`: true (default) loads the samples table whole; false leaves
+ * it for the streaming readers; 'up-to-page-limit' loads it only when the catalogue has at most
+ * `site.objectPageLimit` objects (above it no page offers per-object draws, so nothing needs
+ * the table in memory and every product that reads it streams it instead).
+ */
+export interface LoadOptions {
+  samples?: boolean | 'up-to-page-limit';
+}
+
+export async function loadBundle(dir: string, opts: LoadOptions = {}): Promise<Bundle> {
   const sink = new ProblemSink();
   const { text, problem } = await readConfigText(dir);
   if (text === undefined) throw new PosterityError(problem!);
@@ -405,7 +415,8 @@ export async function loadBundle(dir: string, opts: { samples?: boolean } = {}):
 
   // samples
   let samples: SamplesData | null = null;
-  if (t.samples && opts.samples !== false) {
+  const wantSamples = opts.samples === 'up-to-page-limit' ? n <= (parts.config?.site.objectPageLimit ?? Infinity) : opts.samples !== false;
+  if (t.samples && wantSamples) {
     const ref = t.samples;
     const specs = specsFor('samples', shape);
     checkColumnMap('samples', ref, specs, sink);

@@ -11,7 +11,7 @@
 import { open, rename, rm, type FileHandle } from 'node:fs/promises';
 import path from 'node:path';
 import { parquetMetadataAsync, parquetScan, type AsyncBuffer, type FileMetaData, type SchemaElement } from 'hyparquet';
-import { fileWriter, parquetWrite } from 'hyparquet-writer';
+import { fileWriter, ParquetWriter, parquetWrite } from 'hyparquet-writer';
 import { PosterityError, problem, type Problem } from '../core/problems.ts';
 import { allocColumn, type Column, type ColumnKind, type ColumnMeta, type Table } from './table.ts';
 
@@ -317,5 +317,86 @@ export async function writeParquet(filePath: string, table: Table, opts: WritePa
   } catch (e) {
     await rm(tmp, { force: true });
     throw wrap(e, file, 'cannot write Parquet file');
+  }
+}
+
+/**
+ * A Parquet file written a batch at a time, for tables too large to hold: every column is
+ * REQUIRED (no nulls; NaN floats are written as NaN), rows are buffered until a row group is
+ * full, and the file appears under its name only when `finish` succeeds (written to a
+ * temporary name first, as `writeParquet` does). `abort` removes the temporary file.
+ */
+export class ParquetStreamWriter {
+  private readonly tmp: string;
+  private readonly writer: ParquetWriter;
+  private readonly rowGroupRows: number;
+  private pending: (unknown[] | Float64Array)[][] = [];
+  private pendingRows = 0;
+  private done = false;
+
+  constructor(
+    private readonly filePath: string,
+    private readonly columns: Column[],
+    opts: WriteParquetOptions = {},
+  ) {
+    this.tmp = path.join(path.dirname(filePath), `.posterity-tmp-${process.pid}-${path.basename(filePath)}`);
+    const schema: SchemaElement[] = [{ name: 'root', num_children: columns.length }, ...columns.map((c) => columnSource({ ...c, values: (c.kind === 'string' ? [] : new Float64Array(0)) as never }, 0).schema)];
+    for (const s of schema.slice(1)) s.repetition_type = 'REQUIRED';
+    const colMeta = columns.map((c) => ({ name: c.name, ...(c.unit && { unit: c.unit }), ...(c.description && { description: c.description }), ...(c.ucd && { ucd: c.ucd }) }));
+    const kvMetadata = [{ key: COLUMNS_KEY, value: JSON.stringify(colMeta) }, ...Object.keys(opts.metadata ?? {}).sort().map((key) => ({ key, value: opts.metadata![key]! }))];
+    this.rowGroupRows = Math.max(1, opts.rowGroupRows ?? 65536);
+    this.writer = new ParquetWriter({ writer: fileWriter(this.tmp), schema: schema as never, kvMetadata, createdBy: 'posterity' });
+  }
+
+  /** Append rows: one array per column, in the constructor's order, all of the same length. */
+  async write(values: (unknown[] | Float64Array)[]): Promise<void> {
+    if (values.length !== this.columns.length) throw ioError({ message: 'wrong number of columns in a batch', file: this.filePath, expected: String(this.columns.length), got: String(values.length) });
+    const len = values[0]?.length ?? 0;
+    values.forEach((v, j) => {
+      if (v.length !== len) throw ioError({ message: 'columns of a batch have different lengths', file: this.filePath, column: this.columns[j].name, expected: String(len), got: String(v.length) });
+    });
+    this.pending.push(values);
+    this.pendingRows += len;
+    if (this.pendingRows >= this.rowGroupRows) await this.flush();
+  }
+
+  private async flush(): Promise<void> {
+    if (!this.pendingRows) return;
+    const data = this.columns.map((c, j) => {
+      if (c.kind === 'string') return this.pending.flatMap((p) => p[j] as unknown[]);
+      const out = new Float64Array(this.pendingRows);
+      let o = 0;
+      for (const p of this.pending) {
+        out.set(p[j] as Float64Array, o);
+        o += p[j].length;
+      }
+      return out;
+    });
+    const rows = this.pendingRows;
+    this.pending = [];
+    this.pendingRows = 0;
+    try {
+      await this.writer.write({ columnData: this.columns.map((c, j) => ({ name: c.name, data: data[j] as never })), rowGroupSize: rows });
+    } catch (e) {
+      throw wrap(e, this.filePath, 'cannot write Parquet file');
+    }
+  }
+
+  async finish(): Promise<void> {
+    if (this.done) return;
+    await this.flush();
+    try {
+      await this.writer.finish();
+      this.done = true;
+      await rename(this.tmp, this.filePath);
+    } catch (e) {
+      await rm(this.tmp, { force: true });
+      throw wrap(e, this.filePath, 'cannot write Parquet file');
+    }
+  }
+
+  async abort(): Promise<void> {
+    this.done = true;
+    await rm(this.tmp, { force: true });
   }
 }

@@ -10,7 +10,8 @@ import type { MassFunctionContent, QualityContent } from './content.ts';
 import type { Cosmology } from '../core/cosmology.ts';
 import { FLAG_INFO } from '../core/flags.ts';
 import { slugOf } from '../core/slug.ts';
-import { coverage, pit, pitHistogram, bias, nmad, outlierFraction, calibrationFlag, residuals, LEVEL_1SIGMA } from '../core/population/calibration.ts';
+import type { CalibrationStats } from './samples-pass.ts';
+import { pitHistogram, bias, nmad, outlierFraction, calibrationFlag, residuals, LEVEL_1SIGMA } from '../core/population/calibration.ts';
 import { massFunction1OverVmax, massFunctionBootstrap, fitSchechter } from '../core/population/massfunction.ts';
 import { massCompleteness } from '../core/population/completeness.ts';
 import { normalCdf } from '../core/stats/special.ts';
@@ -21,6 +22,8 @@ export interface EvidenceInputs {
   pop: PopulationDraws;
   cosmo: Cosmology;
   popResult: PopulationResult;
+  /** Coverage and PIT per parameter with true values (`samples-pass.ts`), from every draw. */
+  calibration: CalibrationStats;
 }
 
 function hist(values: Float64Array | number[], edges: number[]): number[] {
@@ -42,7 +45,7 @@ const r4 = (v: number) => (Number.isFinite(v) ? Number(v.toPrecision(4)) : NaN);
 
 export function buildEvidence(inp: EvidenceInputs): { quality: QualityContent; massfunction: MassFunctionContent | null } {
   const { bundle, summary, pop, cosmo } = inp;
-  const { config, objects, samples } = bundle;
+  const { config, objects } = bundle;
   const n = objects.n;
 
   // ESS on log-spaced bins, p-values on linear bins
@@ -72,27 +75,13 @@ export function buildEvidence(inp: EvidenceInputs): { quality: QualityContent; m
   // mock calibration from the full draws
   const calibration: QualityContent['calibration'] = [];
   const isMock = Object.keys(objects.truth).length > 0;
-  if (isMock && samples) {
+  if (isMock) {
     config.parameters.forEach((p, j) => {
       const truth = objects.truth[p.name];
-      if (!truth) return;
-      const total = samples.order.length;
-      const values = new Float64Array(total);
-      const weights = new Float64Array(total);
-      const src = samples.weight ?? samples.logWeight!;
-      for (let i = 0; i < n; i++) {
-        const a = samples.offsets[i], b = samples.offsets[i + 1];
-        let max = -Infinity;
-        if (!samples.weight) for (let r = a; r < b; r++) max = Math.max(max, src[samples.order[r]]);
-        for (let r = a; r < b; r++) {
-          const row = samples.order[r];
-          values[r] = samples.params[j][row];
-          weights[r] = samples.weight ? src[row] : Math.exp(src[row] - max);
-        }
-      }
-      const draws = { offsets: samples.offsets, values, weights };
-      const cov = coverage(truth, draws);
-      const pits = pit(truth, draws);
+      const stats = inp.calibration.get(p.name);
+      if (!truth || !stats) return;
+      const cov = stats.coverage;
+      const pits = stats.pit;
       const ph = pitHistogram(pits, 10);
       const d = residuals(summary.p50[j], truth);
       const nm = nmad(d);

@@ -20,6 +20,8 @@ import { objectDownloadPaths, samplesTable, writeChecksums, writeJson, writeObje
 import { writeCsv, cellText } from '../io/csv.ts';
 import { writeArrow } from '../io/arrow.ts';
 import { buildEvidence } from './evidence.ts';
+import { calibrationFromSamples, streamSampleProducts } from './samples-pass.ts';
+import { readCachedSummary, summaryKey, writeCachedSummary } from './summary-cache.ts';
 import { siteOverview } from './overview.ts';
 import type { SiteContent, OutlierEntry } from './content.ts';
 import type { MergedSummary } from './summarise-partition.ts';
@@ -37,18 +39,27 @@ export interface PipelineOptions {
   massFunctionTruth?: (z: number) => { phiStar: number; logMStar: number; alpha: number };
   /** Summaries merged from partials (`posterity merge`), used instead of summarising again; `source` names them in errors. */
   summaries?: { merged: MergedSummary; source: string };
+  /**
+   * Folder where the summaries of this build are kept for the next one (`summary-cache.ts`);
+   * used up to the object-page limit (above it the corner data would be copied for every object).
+   */
+  summaryCache?: string;
 }
 
 export interface PipelineResult {
   bundle: Bundle;
   objects: number;
   warnings: string[];
+  /** Where the summaries came from: computed now, reused from the previous build, or given (merged partials). */
+  summaries: 'computed' | 'reused' | 'given';
 }
 
 export async function runPipeline(bundleDir: string, opts: PipelineOptions): Promise<PipelineResult> {
   const progress = opts.progress ?? (() => {});
   progress('load', 0, 1);
-  const bundle = await loadBundle(bundleDir);
+  // above the object-page limit the samples are streamed, never held whole (see samples-pass.ts)
+  const bundle = await loadBundle(bundleDir, { samples: 'up-to-page-limit' });
+  const streamSamples = !bundle.samples && !!bundle.config.tables.samples;
   const { config, objects } = bundle;
   const n = objects.n;
   progress('load', 1, 1);
@@ -62,18 +73,32 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
   // summaries; each object's corner data waits on disk until its page is written, so memory
   // does not grow with the catalogue
   const charts = new ChartSpool(join(contentDir, '.spool'), n);
-  const { table: summary, pop } = opts.summaries ? await givenSummaries(bundle, opts.summaries, charts) : await summariseAll(bundle, {
+  const cacheKey = opts.summaryCache && !opts.summaries && n <= config.site.objectPageLimit ? summaryKey(bundle, TOOL) : null;
+  const cached = cacheKey ? await readCachedSummary(opts.summaryCache!, cacheKey) : null;
+  if (cached) cached.charts?.forEach((c, i) => c && charts.set(i, c));
+  const summariesFrom: PipelineResult['summaries'] = opts.summaries ? 'given' : cached ? 'reused' : 'computed';
+  const { table: summary, pop } = opts.summaries ? await givenSummaries(bundle, opts.summaries, charts) : cached ? cached : await summariseAll(bundle, {
     seed: config.seed,
     onCharts: (i, c) => {
       charts.set(i, c);
       if (i % 200 === 0) progress('summarise', i, n);
     },
   });
+  if (cacheKey && !cached) await writeCachedSummary(opts.summaryCache!, cacheKey, bundle, summary, pop, (i) => charts.file(i));
   progress('summarise', n, n);
 
   const popResult = runPopulation({ config, objects, summary, pop, cosmo, truth: opts.truth });
   progress('population', 1, 1);
-  const evidence = buildEvidence({ bundle, summary, pop, cosmo, popResult });
+  // every draw again, streamed: the samples download and the mock calibration
+  const isMock = Object.keys(objects.truth).length > 0;
+  let streamed: Awaited<ReturnType<typeof streamSampleProducts>> | null = null;
+  if (streamSamples) {
+    progress('samples', 0, 1);
+    streamed = await streamSampleProducts(bundle, { parquetPath: join(dl, 'samples.parquet'), calibration: isMock });
+    progress('samples', 1, 1);
+  }
+  const calibration = streamed ? streamed.calibration : isMock ? calibrationFromSamples(bundle) : new Map();
+  const evidence = buildEvidence({ bundle, summary, pop, cosmo, popResult, calibration });
   progress('evidence', 1, 1);
 
   // catalogue and downloads
@@ -224,7 +249,7 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
       objects: n,
       withSamples: n - summary.summariesOnly.reduce((s, v) => s + v, 0),
       summariesOnly: summary.summariesOnly.reduce((s, v) => s + v, 0),
-      draws: bundle.samples?.order.length ?? 0,
+      draws: bundle.samples?.order.length ?? streamed?.rows ?? 0,
       photometryRows: bundle.photometry?.order.length ?? 0,
       bands: bundle.bands?.band.length ?? 0,
       withSpectra: bundle.spectra ? countWith(bundle.spectra.offsets) : 0,
@@ -252,7 +277,7 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
     warnings: [...bundle.warnings.map(formatProblem), ...popResult.warnings],
   };
   await writeJson(join(contentDir, 'site.json'), site);
-  return { bundle, objects: n, warnings: site.warnings };
+  return { bundle, objects: n, warnings: site.warnings, summaries: summariesFrom };
 }
 
 /** Merged summaries checked against the bundle (same inputs, tool version, objects and parameters); their corner data goes into `charts`. */
@@ -287,6 +312,11 @@ class ChartSpool {
   }
   set(i: number, c: ObjectCharts): void {
     writeFileSync(join(this.dir, `${i}.json`), JSON.stringify(c));
+  }
+  /** The spool file of object i, or null when it has no corner data. */
+  file(i: number): string | null {
+    const f = join(this.dir, `${i}.json`);
+    return existsSync(f) ? f : null;
   }
   take(i: number): ObjectCharts | null {
     const f = join(this.dir, `${i}.json`);

@@ -35,6 +35,8 @@ export interface BuildSummary {
   files: number;
   /** Figures rendered in this build and reused unchanged from the previous build of the same output. */
   figures: { rendered: number; reused: number };
+  /** Posterior summaries: computed in this build, reused from the previous build of the same output, or given as merged partials. */
+  summaries: 'computed' | 'reused' | 'given';
   bytes: number;
   downloadBytes: number;
 }
@@ -135,11 +137,14 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     const contentDir = join(stage, 'content');
     const downloadsDir = join(contentDir, 'downloads'); // copied into the site by the relative-urls integration
     const summaries = opts.summaries ? await readSummaries(opts.summaries) : undefined;
-    const result = await runPipeline(resolve(bundleDir), { contentDir, downloadsDir, progress: opts.progress, truth: opts.truth, massFunctionTruth: opts.massFunctionTruth, summaries });
+    const cacheDir = join(dirname(out), `.posterity-cache-${basename(out)}`);
+    const summaryCache = join(cacheDir, 'summaries');
+    const result = await runPipeline(resolve(bundleDir), { contentDir, downloadsDir, progress: opts.progress, truth: opts.truth, massFunctionTruth: opts.massFunctionTruth, summaries, summaryCache });
+    opts.log?.(`summaries: ${result.summaries === 'reused' ? 'reused from the previous build (samples, objects, photometry and summary settings unchanged)' : result.summaries === 'given' ? 'given (merged partials)' : 'computed'}`);
     opts.progress?.('figures', 0, 1);
     const { prerenderFigures } = await import('../charts/prerender.ts');
     // figures of the previous build of this output are reused where their spec did not change
-    const figureCache = join(dirname(out), `.posterity-cache-${basename(out)}`, 'figures');
+    const figureCache = join(cacheDir, 'figures');
     if (existsSync(figureCache)) await cp(figureCache, join(contentDir, 'figures'), { recursive: true });
     const fig = await prerenderFigures(contentDir, {});
     figures = { rendered: fig.rendered, reused: fig.cached };
@@ -163,7 +168,7 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     if (existsSync(out)) await rename(out, old);
     await rename(siteDir, out);
     await rm(old, { recursive: true, force: true });
-    return { objects: result.objects, out, warnings: result.warnings, seconds: (Date.now() - t0) / 1000, figures, ...(await siteStats(out)) };
+    return { objects: result.objects, out, warnings: result.warnings, seconds: (Date.now() - t0) / 1000, figures, summaries: result.summaries, ...(await siteStats(out)) };
   } finally {
     await rm(stage, { recursive: true, force: true });
     staging.delete(stage);
