@@ -239,6 +239,12 @@ export interface BinFit {
   zLo: number;
   zHi: number;
   n: number;
+  /**
+   * Under per-draw redshift-bin membership (`RelationContent.binMembership`): the effective
+   * number of members, the sum over the n fitted galaxies of their probability f of being in
+   * the bin. Absent when membership is by the catalogue redshift.
+   */
+  nEff?: number;
   completenessLogM: number | null;
   fits: MethodFit[];
   running: {
@@ -289,6 +295,12 @@ export interface RelationContent {
   methodNotes: string[];
   caveats: string[];
   priorUsed: string;
+  /**
+   * Present when redshift-bin membership was assigned per posterior draw of a parameter with
+   * the redshift role (absent: by the catalogue redshift): the parameter, and the floor below
+   * which a galaxy's share of a bin is dropped (f >= minFraction and >= minDraws draws in the bin).
+   */
+  binMembership?: { kind: 'per-draw'; parameter: string; minFraction: number; minDraws: number };
 }
 
 export interface OutlierEntry {

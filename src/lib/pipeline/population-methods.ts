@@ -2,7 +2,7 @@
  * Adapters from the pipeline's arrays to the relation methods of the core.
  */
 import type { RelationConfig, ReleaseConfig } from '../bundle/schema.ts';
-import { stepsFor, type PopulationInputs } from './population.ts';
+import { binOf, stepsFor, type PopulationInputs } from './population.ts';
 import type { PopulationDraws } from './summarise.ts';
 import type { BinFit, MethodFit } from './content.ts';
 import type { RelationFit } from '../core/relations/linear.ts';
@@ -26,13 +26,29 @@ function declaredLogPrior(config: ReleaseConfig, name: string): ((v: number) => 
   return (v) => c - 0.5 * ((v - p.mean) / p.sigma) ** 2;
 }
 
-/** The hierarchical fit on each selected object's equal-weight resample of draws. */
+/**
+ * Per-draw redshift-bin membership for one bin: the redshift-role parameter `iz`, the bin
+ * `bin` of `edges`, and the weight f of each selected object (its share of draws in the bin).
+ */
+export interface DrawBin {
+  iz: number;
+  edges: number[];
+  bin: number;
+  weight: Float64Array;
+}
+
+/**
+ * The hierarchical fit on each selected object's equal-weight resample of draws. With `drawBin`
+ * only the draws whose own redshift falls in the bin enter, and each object's log marginal
+ * likelihood is weighted by its f (`HierarchicalData.objectWeight`).
+ */
 export function hierarchicalIfAvailable(
   rel: RelationConfig, inp: PopulationInputs, idx: number[], ix: number, iy: number, seed: number, warnings: string[],
   /** Completeness cut on x (the sample holds only galaxies above it): modelled in the likelihood. */
   xMin?: number,
   /** Redshift offset of each selected object from the bin centre (the within-bin evolution term). */
   dz?: Float64Array,
+  drawBin?: DrawBin,
 ): { fit: MethodFit; raw: RelationFit } | null {
   const { pop, config } = inp;
   const m = pop.m;
@@ -50,6 +66,7 @@ export function hierarchicalIfAvailable(
     for (let d = 0; d < m; d++) {
       const xv = pop.values[ix][i * m + d], yv = pop.values[iy][i * m + d];
       if (!Number.isFinite(xv) || !Number.isFinite(yv)) continue;
+      if (drawBin && binOf(pop.values[drawBin.iz][i * m + d], drawBin.edges) !== drawBin.bin) continue;
       x[o] = xv;
       y[o] = yv;
       lp[o] = pop.hasLogPrior ? pop.logPrior[i * m + d] : px!(xv) + py!(yv);
@@ -57,7 +74,7 @@ export function hierarchicalIfAvailable(
     }
     offsets[s + 1] = o;
   }
-  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets, ...(dz ? { dz } : {}) }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 12, nSteps: stepsFor(o * 12, 2.5e8, 600, 2000), ...(xMin !== undefined ? { selection: { xMin } } : {}) });
+  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets, ...(dz ? { dz } : {}), ...(drawBin ? { objectWeight: drawBin.weight } : {}) }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 12, nSteps: stepsFor(o * 12, 2.5e8, 600, 2000), ...(xMin !== undefined ? { selection: { xMin } } : {}) });
   let small = 0;
   for (const e of fit.effectiveDraws) if (e < 5) small++;
   if (small > 0) fit.warnings.push(`${small} of ${nSel} objects have fewer than 5 effective draws carrying the likelihood; their marginal likelihoods are noisy`);
@@ -75,6 +92,7 @@ export function hierarchicalIfAvailable(
       drawsPerObject: m,
       interimPrior: pop.hasLogPrior ? 'log_prior column' : 'declared priors',
       selectionXMin: xMin ?? 'none',
+      ...(drawBin ? { binMembership: 'per draw' } : {}),
       xModelMu: fit.xModel.mu.median,
       xModelTau: fit.xModel.tau.median,
     },
@@ -85,8 +103,13 @@ export function hierarchicalIfAvailable(
 
 const arr = (a: Float64Array, d = 5) => Array.from(a, (v) => (Number.isFinite(v) ? Number(v.toPrecision(d)) : NaN));
 
-/** Running median of y in 8 equal bins of x, bootstrapping objects and one posterior draw each. */
-export function runningIfAvailable(pop: PopulationDraws, idx: number[], ix: number, iy: number, x: Float64Array, seed: number): BinFit['running'] {
+/**
+ * Running median of y in 8 equal bins of x, bootstrapping objects and one posterior draw each.
+ * With `drawBin` a draw counts only when its own redshift falls in the redshift bin (the
+ * bootstrap picks one of all the object's draws and drops the object from the replicate when
+ * that draw is outside the bin).
+ */
+export function runningIfAvailable(pop: PopulationDraws, idx: number[], ix: number, iy: number, x: Float64Array, seed: number, drawBin?: DrawBin): BinFit['running'] {
   const m = pop.m;
   let lo = Infinity, hi = -Infinity;
   for (const v of x) {
@@ -98,6 +121,7 @@ export function runningIfAvailable(pop: PopulationDraws, idx: number[], ix: numb
   const edges = Float64Array.from({ length: nb + 1 }, (_, j) => lo + ((hi - lo) * j) / nb);
   const xs = new Float64Array(idx.length * m), ys = new Float64Array(idx.length * m), w = new Float64Array(idx.length * m).fill(1);
   const offsets = new Int32Array(idx.length + 1);
+  const mask = drawBin ? new Uint8Array(idx.length * m) : null;
   let o = 0;
   idx.forEach((i, s) => {
     for (let d = 0; d < m; d++) {
@@ -105,11 +129,12 @@ export function runningIfAvailable(pop: PopulationDraws, idx: number[], ix: numb
       if (!Number.isFinite(xv) || !Number.isFinite(yv)) continue;
       xs[o] = xv;
       ys[o] = yv;
+      if (mask) mask[o] = binOf(pop.values[drawBin!.iz][i * m + d], drawBin!.edges) === drawBin!.bin ? 1 : 0;
       o++;
     }
     offsets[s + 1] = o;
   });
-  const r = runningMedian({ x: xs.subarray(0, o), y: ys.subarray(0, o), w: w.subarray(0, o), offsets }, { edges, nBoot: 200, seed });
+  const r = runningMedian({ x: xs.subarray(0, o), y: ys.subarray(0, o), w: w.subarray(0, o), offsets }, { edges, nBoot: 200, seed, ...(mask ? { drawMask: mask.subarray(0, o) } : {}) });
   return { centres: arr(r.centres), median: arr(r.median), p16: arr(r.p16), p84: arr(r.p84), medianLo: arr(r.medianLo), medianHi: arr(r.medianHi), n: arr(r.n, 4) };
 }
 

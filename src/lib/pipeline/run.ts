@@ -151,8 +151,11 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
       pivot: r.pivot,
       model: 'y = a + b (x - pivot) + c (z - z_centre) + N(0, s^2), per redshift bin; a is the relation at the bin centre',
       interimPrior: r.priorUsed,
-      selection: config.relations.find((c) => c.name === r.name)!.aboveCompleteness ? 'population, redshift bin and above the mass-completeness limit' : 'population and redshift bin',
-      bins: r.bins.map((b) => ({ zLo: b.zLo, zHi: b.zHi, n: b.n, completenessLogM: b.completenessLogM, fits: b.fits, running: b.running })),
+      selection:
+        (config.relations.find((c) => c.name === r.name)!.aboveCompleteness ? 'population, redshift bin and above the mass-completeness limit' : 'population and redshift bin') +
+        (r.binMembership ? `; redshift-bin membership per posterior draw (parameter ${r.binMembership.parameter}), each galaxy weighted by its probability of lying in the bin` : ''),
+      ...(r.binMembership ? { binMembership: r.binMembership } : {}),
+      bins: r.bins.map((b) => ({ zLo: b.zLo, zHi: b.zHi, n: b.n, ...(b.nEff !== undefined ? { nEff: b.nEff } : {}), completenessLogM: b.completenessLogM, fits: b.fits, running: b.running })),
     })),
   });
   if (evidence.massfunction && opts.massFunctionTruth)

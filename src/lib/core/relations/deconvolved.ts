@@ -27,6 +27,13 @@ export interface DeconvolvedData {
    * relation at the bin centre.
    */
   dz?: Float64Array;
+  /**
+   * Optional weight of each object in [0, 1], multiplying its log-likelihood term: its
+   * probability of belonging to the sample, e.g. the share of its posterior draws whose redshift
+   * falls in the redshift bin (then x, y and the covariances are the moments of those draws).
+   * Without it every object has weight 1 and the fit is exactly the unweighted one.
+   */
+  objectWeight?: Float64Array;
 }
 
 export interface DeconvolvedOptions {
@@ -47,6 +54,7 @@ function validate(d: DeconvolvedData): number {
   }
   if (n < 3) throw new PosterityError(problem({ message: 'deconvolved fit needs at least 3 objects', expected: '>= 3', got: String(n) }));
   if (d.dz) validateCovariate(d.dz, n, 'deconvolved fit');
+  if (d.objectWeight) validateObjectWeight(d.objectWeight, n, 'deconvolved fit');
   for (let i = 0; i < n; i++) {
     const { x, y, cxx, cyy, cxy } = { x: d.x[i], y: d.y[i], cxx: d.cxx[i], cyy: d.cyy[i], cxy: d.cxy[i] };
     const finite = Number.isFinite(x) && Number.isFinite(y) && Number.isFinite(cxx) && Number.isFinite(cyy) && Number.isFinite(cxy);
@@ -63,6 +71,26 @@ function validate(d: DeconvolvedData): number {
     }
   }
   return n;
+}
+
+/**
+ * Checks a per-object weight column: one value in [0, 1] per object, not all zero. Shared by
+ * the deconvolved and mixture fits.
+ */
+export function validateObjectWeight(w: Float64Array, n: number, what: string): void {
+  if (w.length !== n) {
+    throw new PosterityError(problem({ message: `${what}: objectWeight must have one value per object`, column: 'objectWeight', expected: String(n), got: String(w.length) }));
+  }
+  let sum = 0;
+  for (let i = 0; i < n; i++) {
+    if (!(w[i] >= 0 && w[i] <= 1)) {
+      throw new PosterityError(problem({ message: `${what}: object weight is not in [0, 1]`, column: 'objectWeight', row: i + 1, expected: 'a number in [0, 1]', got: String(w[i]) }));
+    }
+    sum += w[i];
+  }
+  if (!(sum > 0)) {
+    throw new PosterityError(problem({ message: `${what}: every object weight is zero, so no object carries the likelihood`, column: 'objectWeight', expected: 'at least one weight > 0', got: '0' }));
+  }
 }
 
 /**
@@ -96,18 +124,22 @@ export function validateCovariate(dz: Float64Array, n: number, what: string): vo
  * V_i = s^2 + Cyy_i - 2 b Cxy_i + b^2 Cxx_i, the variance of the vertical residual (Hogg, Bovy &
  * Lang 2010, arXiv:1008.4686, eq. 32, projected vertically instead of orthogonally, with
  * correlated x-y uncertainties). The covariate dz is known exactly, so it only shifts the mean;
- * `c` is ignored when the data have no dz.
+ * `c` is ignored when the data have no dz. With `d.objectWeight` object i's term is multiplied
+ * by its weight f_i (a weighted likelihood).
  */
 export function deconvolvedLogLikelihood(d: DeconvolvedData, pivot: number, a: number, b: number, s: number, c = 0): number {
   let acc = 0;
   const s2 = s * s;
   const dz = d.dz;
+  const fw = d.objectWeight;
   for (let i = 0; i < d.x.length; i++) {
+    if (fw && fw[i] === 0) continue;
     const v = s2 + d.cyy[i] - 2 * b * d.cxy[i] + b * b * d.cxx[i];
     if (!(v > 0)) return -Infinity;
     let r = d.y[i] - a - b * (d.x[i] - pivot);
     if (dz) r -= c * dz[i];
-    acc += Math.log(2 * Math.PI * v) + (r * r) / v;
+    const t = Math.log(2 * Math.PI * v) + (r * r) / v;
+    acc += fw ? fw[i] * t : t;
   }
   return -0.5 * acc;
 }
@@ -119,7 +151,8 @@ export function deconvolvedLogLikelihood(d: DeconvolvedData, pivot: number, a: n
  * posterior improper when the scatter is unresolved). Because the likelihood is Gaussian in a,
  * a | b, s, data ~ N(ybar + sum w r / sum w, 1 / sum w), w_i = 1/V_i, r_i = y_i - ybar - b dx_i,
  * and integrating a out leaves -1/2 [sum ln V_i + sum w r^2 - (sum w r)^2 / sum w + ln sum w].
- * The blob receives (conditional mean of a, conditional sd of a).
+ * The blob receives (conditional mean of a, conditional sd of a). With `d.objectWeight` every
+ * sum carries the object's weight f_i (w_i = f_i / V_i, and f_i ln V_i in the first sum).
  */
 export function marginalPosterior(d: DeconvolvedData, pivot: number): (theta: Float64Array, blob: Float64Array) => number {
   const n = d.x.length;
@@ -132,6 +165,7 @@ export function marginalPosterior(d: DeconvolvedData, pivot: number): (theta: Fl
     k.yc[i] = d.y[i] - ybar;
   }
   const acc = k.acc;
+  const fw = d.objectWeight;
   return (theta, blob) => {
     const b = theta[0];
     const lnS = theta[1];
@@ -141,7 +175,8 @@ export function marginalPosterior(d: DeconvolvedData, pivot: number): (theta: Fl
     acc[4] = 1;
     // blocks in their own function, as in `marginalPosteriorWithCovariate`
     for (let lo = 0; lo < n; lo += KERNEL_BLOCK) {
-      if (!accumulatePlain(k, lo, Math.min(n, lo + KERNEL_BLOCK), s2, b)) return -Infinity;
+      const hi = Math.min(n, lo + KERNEL_BLOCK);
+      if (!(fw ? accumulatePlainWeighted(k, fw, lo, hi, s2, b) : accumulatePlain(k, lo, hi, s2, b))) return -Infinity;
     }
     const sw = acc[0], swr = acc[1], swr2 = acc[2];
     const sumLog = acc[3] + Math.log(acc[4]);
@@ -194,6 +229,32 @@ function accumulatePlain(k: PlainKernel, lo: number, hi: number, s2: number, b: 
   return true;
 }
 
+/** `accumulatePlain` with object weights f_i: w_i = f_i / V_i, and f_i ln V_i summed directly (objects of weight 0 skipped). */
+function accumulatePlainWeighted(k: PlainKernel, fw: Float64Array, lo: number, hi: number, s2: number, b: number): boolean {
+  const { dx, yc, cxx, cyy, cxy, acc } = k;
+  let sw = acc[0], swr = acc[1], swr2 = acc[2], sumLog = acc[3];
+  const twoB = 2 * b;
+  const b2 = b * b;
+  for (let i = lo; i < hi; i++) {
+    const f = fw[i];
+    if (f === 0) continue;
+    const v = s2 + cyy[i] - twoB * cxy[i] + b2 * cxx[i];
+    if (!(v > 0)) return false;
+    const w = f / v;
+    const r = yc[i] - b * dx[i];
+    const wr = w * r;
+    sw += w;
+    swr += wr;
+    swr2 += wr * r;
+    sumLog += f * Math.log(v);
+  }
+  acc[0] = sw;
+  acc[1] = swr;
+  acc[2] = swr2;
+  acc[3] = sumLog;
+  return true;
+}
+
 /**
  * As `marginalPosterior` for y = a + b (x - pivot) + c dz: with flat priors on a and c the
  * likelihood is Gaussian in (a, c) jointly, so both are marginalised analytically (a weighted
@@ -203,7 +264,8 @@ function accumulatePlain(k: PlainKernel, lo: number, hi: number, s2: number, b: 
  * (b, ln s) is -1/2 [sum ln V_i + sum w r^2 - q^T M^-1 q + ln det M] + priors, and
  * (a, c) | b, s ~ N(M^-1 q, M^-1) (moved back from dz' to dz = 0, the bin centre). The blob
  * receives (mean a, mean c, L11, L21, L22), the lower Cholesky factor of that 2 x 2 covariance.
- * Three more multiply-adds per object than without the covariate.
+ * Three more multiply-adds per object than without the covariate. With `d.objectWeight` the
+ * sums carry the object weights as in `marginalPosterior`.
  */
 export function marginalPosteriorWithCovariate(d: DeconvolvedData, pivot: number): (theta: Float64Array, blob: Float64Array) => number {
   const dzIn = d.dz;
@@ -231,6 +293,7 @@ export function marginalPosteriorWithCovariate(d: DeconvolvedData, pivot: number
     k.zc[i] = dzIn[i] - zbar;
   }
   const acc = k.acc;
+  const fw = d.objectWeight;
   return (theta, blob) => {
     const b = theta[0];
     const lnS = theta[1];
@@ -241,7 +304,8 @@ export function marginalPosteriorWithCovariate(d: DeconvolvedData, pivot: number
     // the object loop runs in blocks in its own function, which the engine then optimises as a
     // whole (a single long loop is compiled on-stack mid-loop, without feedback for the code after it)
     for (let lo = 0; lo < n; lo += KERNEL_BLOCK) {
-      if (!accumulateWithCovariate(k, lo, Math.min(n, lo + KERNEL_BLOCK), s2, b)) return -Infinity;
+      const hi = Math.min(n, lo + KERNEL_BLOCK);
+      if (!(fw ? accumulateWithCovariateWeighted(k, fw, lo, hi, s2, b) : accumulateWithCovariate(k, lo, hi, s2, b))) return -Infinity;
     }
     const sw = acc[0], swz = acc[1], swzz = acc[2], swr = acc[3], swzr = acc[4], swr2 = acc[5];
     const sumLog = acc[6] + Math.log(acc[7]);
@@ -319,6 +383,39 @@ function accumulateWithCovariate(k: CovariateKernel, lo: number, hi: number, s2:
   return true;
 }
 
+/** `accumulateWithCovariate` with object weights f_i (w_i = f_i / V_i, f_i ln V_i summed directly; weight-0 objects skipped). */
+function accumulateWithCovariateWeighted(k: CovariateKernel, fw: Float64Array, lo: number, hi: number, s2: number, b: number): boolean {
+  const { dx, yc, zc, cxx, cyy, cxy, acc } = k;
+  let sw = acc[0], swz = acc[1], swzz = acc[2], swr = acc[3], swzr = acc[4], swr2 = acc[5], sumLog = acc[6];
+  const twoB = 2 * b;
+  const b2 = b * b;
+  for (let i = lo; i < hi; i++) {
+    const f = fw[i];
+    if (f === 0) continue;
+    const v = s2 + cyy[i] - twoB * cxy[i] + b2 * cxx[i];
+    if (!(v > 0)) return false;
+    const w = f / v;
+    const r = yc[i] - b * dx[i];
+    const wr = w * r;
+    const wz = w * zc[i];
+    sw += w;
+    swz += wz;
+    swzz += wz * zc[i];
+    swr += wr;
+    swzr += wz * r;
+    swr2 += wr * r;
+    sumLog += f * Math.log(v);
+  }
+  acc[0] = sw;
+  acc[1] = swz;
+  acc[2] = swzz;
+  acc[3] = swr;
+  acc[4] = swzr;
+  acc[5] = swr2;
+  acc[6] = sumLog;
+  return true;
+}
+
 /**
  * Deconvolved fit of y = a + b (x - pivot) + N(0, s^2) from posterior means and covariances
  * (likelihood `deconvolvedLogLikelihood`; priors and the analytic marginalisation of a in
@@ -333,7 +430,8 @@ function accumulateWithCovariate(k: CovariateKernel, lo: number, hi: number, s2:
  * sd, and the hierarchical fit (which models the x distribution) should be preferred. With
  * `d.dz` the mean is a + b (x - pivot) + c dz and (a, c) are both marginalised analytically
  * (`marginalPosteriorWithCovariate`); the result then has `c` and `drawsC`, and c is the
- * fourth entry of the diagnostics.
+ * fourth entry of the diagnostics. With `d.objectWeight` each object's likelihood term is
+ * weighted by f_i (for membership probabilities; `n` stays the number of objects given).
  */
 export function fitDeconvolved(d: DeconvolvedData, opts: DeconvolvedOptions): RelationFit {
   const n = validate(d);
@@ -491,6 +589,7 @@ export function splitDraws(thin: Float64Array, dim: number, cCol: number): { dra
  * from that part of x alone; Frisch-Waugh-Lovell theorem, e.g. Wooldridge, ch. 3).
  */
 export function predictedSlopeBias(d: DeconvolvedData, b: number): number {
+  if (d.objectWeight) return weightedSlopeBias(d, d.objectWeight, b);
   const n = d.x.length;
   let m = 0;
   for (let i = 0; i < n; i++) m += d.x[i];
@@ -515,6 +614,37 @@ export function predictedSlopeBias(d: DeconvolvedData, b: number): number {
   }
   v /= n - 1;
   return v > 0 ? (cxy / n - (b * cxx) / n) / v : NaN;
+}
+
+/** `predictedSlopeBias` with object weights f_i in every mean and sum (variance over sum f - 1, at least half of sum f). */
+function weightedSlopeBias(d: DeconvolvedData, fw: Float64Array, b: number): number {
+  const n = d.x.length;
+  let sf = 0, m = 0;
+  for (let i = 0; i < n; i++) {
+    sf += fw[i];
+    m += fw[i] * d.x[i];
+  }
+  m /= sf;
+  let v = 0, cxx = 0, cxy = 0;
+  for (let i = 0; i < n; i++) {
+    v += fw[i] * (d.x[i] - m) ** 2;
+    cxx += fw[i] * d.cxx[i];
+    cxy += fw[i] * d.cxy[i];
+  }
+  const dz = d.dz;
+  if (dz) {
+    let zm = 0;
+    for (let i = 0; i < n; i++) zm += fw[i] * dz[i];
+    zm /= sf;
+    let szz = 0, sxz = 0;
+    for (let i = 0; i < n; i++) {
+      szz += fw[i] * (dz[i] - zm) ** 2;
+      sxz += fw[i] * (dz[i] - zm) * (d.x[i] - m);
+    }
+    if (szz > 0) v -= (sxz * sxz) / szz;
+  }
+  v /= Math.max(sf - 1, 0.5 * sf);
+  return v > 0 ? (cxy / sf - (b * cxx) / sf) / v : NaN;
 }
 
 /**

@@ -6,7 +6,7 @@
 import { PosterityError, problem } from '../problems.ts';
 import { deriveSeed, makeRng } from '../random.ts';
 import { chainDiagnostics, summariseChain, thinChain } from './diagnostics.ts';
-import { splitDraws, validateCovariate, type DeconvolvedData } from './deconvolved.ts';
+import { splitDraws, validateCovariate, validateObjectWeight, type DeconvolvedData } from './deconvolved.ts';
 import { sampleEnsemble } from './ensemble.ts';
 import { leastSquaresWithCovariate, weightedLeastSquares } from './leastsquares.ts';
 import { MAX_BAND_DRAWS, type Estimate, type RelationFit } from './linear.ts';
@@ -48,12 +48,20 @@ function componentLogs(d: DeconvolvedData, pivot: number, i: number, a: number, 
  * broad component Gaussian in y, their sect. 5 mixture). Only the sequence gets the redshift
  * term (a linear covariate, c last in theta). Priors: flat in a, c and mu_o; flat in the angle
  * of b; flat in s and s_o with s_o > s (which labels the broad component); uniform f on (0, 1).
+ * With `d.objectWeight` each galaxy's log mixture likelihood is multiplied by its weight (its
+ * probability of belonging to the sample, e.g. to the redshift bin).
  */
 function makeLogPosterior(d: DeconvolvedData, pivot: number): (t: Float64Array) => number {
   const n = d.x.length;
   const hasC = d.dz !== undefined;
   // without the covariate: dz = 0 and c = 0, so r is unchanged to the last bit
   const dz = d.dz ?? new Float64Array(n);
+  const fw = d.objectWeight;
+  let sumW = n;
+  if (fw) {
+    sumW = 0;
+    for (let i = 0; i < n; i++) sumW += fw[i];
+  }
   return (t) => {
     const a = t[0], b = t[1], lnS = t[2], mo = t[3], lnSo = t[4], lf = t[5];
     const c = hasC ? t[6] : 0;
@@ -67,15 +75,17 @@ function makeLogPosterior(d: DeconvolvedData, pivot: number): (t: Float64Array) 
     const { x, y, cxx, cyy, cxy } = d;
     let total = 0;
     for (let i = 0; i < n; i++) {
+      if (fw && fw[i] === 0) continue;
       const vs = s2 + cyy[i] - 2 * b * cxy[i] + b * b * cxx[i];
       const r = y[i] - a - b * (x[i] - pivot) - c * dz[i];
       const vo = so2 + cyy[i];
       const ro = y[i] - mo;
       const u = lnF - 0.5 * ((r * r) / vs + Math.log(vs));
       const v = ln1F - 0.5 * ((ro * ro) / vo + Math.log(vo));
-      total += u > v ? u + Math.log1p(Math.exp(v - u)) : v + Math.log1p(Math.exp(u - v));
+      const li = u > v ? u + Math.log1p(Math.exp(v - u)) : v + Math.log1p(Math.exp(u - v));
+      total += fw ? fw[i] * li : li;
     }
-    return total - n * HALF_LOG_2PI - 1.5 * Math.log1p(b * b) + lnS + lnSo + lnF + ln1F;
+    return total - sumW * HALF_LOG_2PI - 1.5 * Math.log1p(b * b) + lnS + lnSo + lnF + ln1F;
   };
 }
 
@@ -85,7 +95,9 @@ function makeLogPosterior(d: DeconvolvedData, pivot: number): (t: Float64Array) 
  * Weare 2010), started from the Laplace approximation at the mode. `membership` is each
  * galaxy's f p_seq / (f p_seq + (1 - f) p_broad), averaged over up to 400 posterior draws.
  * With `d.dz` the sequence mean gets the redshift term c dz (reported as `c`, `drawsC`; c
- * is the 7th sampled parameter, last in the diagnostics).
+ * is the 7th sampled parameter, last in the diagnostics). With `d.objectWeight` (values in
+ * [0, 1]) each galaxy's likelihood term is weighted; `membership` is still each galaxy's
+ * probability of belonging to the sequence given that it is in the sample.
  */
 export function fitMixture(d: DeconvolvedData, opts: MixtureOptions): MixtureFit {
   const n = d.x.length;
@@ -100,6 +112,7 @@ export function fitMixture(d: DeconvolvedData, opts: MixtureOptions): MixtureFit
   }
   const dz = d.dz;
   if (dz) validateCovariate(dz, n, 'mixture fit');
+  if (d.objectWeight) validateObjectWeight(d.objectWeight, n, 'mixture fit');
   const dim = dz ? 7 : 6;
   const { pivot, seed } = opts;
   const nWalkers = opts.nWalkers ?? 16;

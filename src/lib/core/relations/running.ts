@@ -27,6 +27,13 @@ export interface RunningOptions {
   edges: Float64Array;
   nBoot: number;
   seed: number;
+  /**
+   * `runningMedian` only: per draw, 0 for a draw outside the sample (e.g. one whose own
+   * redshift is outside the relation's redshift bin). Such a draw keeps its share of the
+   * object's weight but is never binned, so the object counts with the weight of its other
+   * draws, and a bootstrap replicate that picks it for the object leaves the object out.
+   */
+  drawMask?: Uint8Array;
 }
 
 function checkEdges(edges: Float64Array, nBoot: number): number {
@@ -98,13 +105,18 @@ function fillSpread(out: RunningMedian, ys: number[][], ws: number[][] | null): 
  * Each bootstrap replicate (Efron 1979, Ann. Stat. 7, 1) resamples the objects with
  * replacement and takes one draw per resampled object, chosen in proportion to its weight,
  * so the median's uncertainty includes both sampling and measurement noise; medianLo/Hi are
- * the 16/84% points of the replicate medians (percentile interval).
+ * the 16/84% points of the replicate medians (percentile interval). With `opts.drawMask` only
+ * the draws it keeps are binned, both for the central values and in the replicates.
  */
 export function runningMedian(d: ObjectDraws, opts: RunningOptions): RunningMedian {
   const n = validateDraws(d, 'running median');
   const m = checkEdges(opts.edges, opts.nBoot);
   const out = empty(m, opts.edges);
   const { edges } = opts;
+  const mask = opts.drawMask;
+  if (mask && mask.length !== d.x.length) {
+    throw new PosterityError(problem({ message: 'running median: drawMask must have one entry per draw', column: 'drawMask', expected: String(d.x.length), got: String(mask.length) }));
+  }
   // central values from all draws
   const byBinY: number[][] = Array.from({ length: m }, () => []);
   const byBinW: number[][] = Array.from({ length: m }, () => []);
@@ -112,7 +124,7 @@ export function runningMedian(d: ObjectDraws, opts: RunningOptions): RunningMedi
     let sw = 0;
     for (let j = d.offsets[i]; j < d.offsets[i + 1]; j++) sw += d.w[j];
     for (let j = d.offsets[i]; j < d.offsets[i + 1]; j++) {
-      const b = binOf(edges, d.x[j]);
+      const b = mask && !mask[j] ? -1 : binOf(edges, d.x[j]);
       if (b < 0 || !(d.w[j] > 0)) continue;
       byBinY[b].push(d.y[j]);
       byBinW[b].push(d.w[j] / sw);
@@ -131,7 +143,7 @@ export function runningMedian(d: ObjectDraws, opts: RunningOptions): RunningMedi
       const i = rng.int(n);
       const lo = d.offsets[i];
       const j = lo + rng.weightedIndex(d.w.subarray(lo, d.offsets[i + 1]));
-      const b = binOf(edges, d.x[j]);
+      const b = mask && !mask[j] ? -1 : binOf(edges, d.x[j]);
       if (b >= 0) buf[b][counts[b]++] = d.y[j];
     }
     for (let b = 0; b < m; b++) medians[b][r] = medianOf(buf[b], counts[b]);
