@@ -16,6 +16,7 @@ import { MAX_BAND_DRAWS, type Estimate, type RelationFit } from './linear.ts';
 import { nelderMead } from './optimise.ts';
 import { startAtMode } from './start.ts';
 import { convergenceWarnings } from './warnings.ts';
+import { createLikelihoodSum, sharedF32, sharedF64, sharedI32, threadsFor, type CompactTerms, type LikelihoodSum } from './hierarchical-sum.ts';
 
 export interface HierarchicalData extends ObjectDraws {
   /** Natural log of the interim prior density the fitter used, at each draw. */
@@ -25,6 +26,17 @@ export interface HierarchicalData extends ObjectDraws {
    * z - zc, taken as known. When given, the mean relation gets + c dz and the fit reports c.
    */
   dz?: Float64Array;
+  /**
+   * Optional weight f_i in [0, 1] per object (not per draw): the probability that the object
+   * belongs to the bin being fitted, when its redshift is itself a sampled parameter. Object i's
+   * log marginal likelihood, with its share of the normalisation terms (1 / (2 pi s tau) and
+   * the selection 1 / P(x > xMin)), is multiplied by f_i: a weighted ("fractional")
+   * likelihood. This is an approximation: the exact treatment would model bin membership
+   * jointly with the relation (a mixture over bins), and the weighted likelihood's posterior
+   * width is only right when the weights are close to 0 or 1. Objects with f_i = 0 are left
+   * out exactly as if they were not given; without the array every f_i is 1.
+   */
+  objectWeight?: Float64Array;
 }
 
 export interface HierarchicalOptions {
@@ -41,6 +53,13 @@ export interface HierarchicalOptions {
    * proportion to weight (default 64; fewer biases s upwards, see the tests), which keeps each L_i estimate unbiased.
    */
   maxDraws?: number;
+  /**
+   * Threads that evaluate the likelihood (this one plus worker threads sharing the draws through
+   * SharedArrayBuffer). Default: one per core (os.availableParallelism()) when there are at
+   * least 2^18 draws, else 1; `hierarchicalLogPosterior` defaults to 1. The result does not
+   * depend on it: objects are summed in fixed chunks added in a fixed order.
+   */
+  threads?: number;
 }
 
 export interface HierarchicalFit extends RelationFit {
@@ -65,26 +84,47 @@ function needPrior(detail: string, row?: number): never {
   );
 }
 
-/** Flat per-draw arrays the likelihood loops over: (X, Y, C = ln w - ln pi) interleaved. */
-interface Terms {
-  t: Float64Array;
-  offsets: Int32Array;
-  /** Per kept object: dz (zeros without the covariate). */
-  dz: Float64Array;
-  n: number;
-  maxK: number;
+/**
+ * The likelihood's arrays (`CompactTerms`: per draw (x - xc, y - yc, C - Cmax) in float32 with
+ * C = ln w - ln pi, per object the float64 centre and Cmax) plus bookkeeping. Float32 is enough
+ * for the per-draw values because they are stored relative to each object's own centre and
+ * maximum: the rounding (relative 2^-24 = 6e-8) is 6e-8 of the object's own spread of draws in
+ * x and y, and at most about 6e-8 |C - Cmax| in a log weight (1e-6 for a draw e^-16 below the
+ * best one), a fixed perturbation of the draws far below their spread, not noise in theta; all
+ * sums are in float64.
+ */
+interface Terms extends CompactTerms {
   objectsSubsampled: number;
   dropped: number;
+  total: number;
 }
 
-function buildTerms(d: HierarchicalData, n: number, xMin: number, maxDraws: number, seed: number): Terms {
+function buildTerms(d: HierarchicalData, n: number, xMin: number, maxDraws: number, seed: number, weight: Float64Array | undefined): Terms {
   const rng = makeRng(deriveSeed(seed, 'hierarchical', 'subsample'));
-  const xs: number[] = [];
-  const offsets = [0];
-  const dzKept: number[] = [];
+  // first pass: draws kept per object (all draws above the cut with w > 0, or maxDraws of them)
+  let total = 0;
+  let nKept = 0;
+  for (let i = 0; i < n; i++) {
+    let sw = 0;
+    let count = 0;
+    for (let j = d.offsets[i]; j < d.offsets[i + 1]; j++) {
+      if (d.x[j] > xMin) {
+        sw += d.w[j];
+        if (d.w[j] > 0) count++;
+      }
+    }
+    if (!(sw > 0)) continue;
+    nKept++;
+    total += Math.min(count, maxDraws);
+  }
+  const t = sharedF32(3 * total);
+  const offsets = sharedI32(nKept + 1);
+  const cmax = sharedF64(nKept), xc = sharedF64(nKept), yc = sharedF64(nKept), dz = sharedF64(nKept);
+  const f = weight ? sharedF64(nKept) : undefined;
   let objectsSubsampled = 0;
   let dropped = 0;
-  let maxK = 0;
+  let kept = 0;
+  let o = 0;
   const keepX: number[] = [];
   const keepY: number[] = [];
   const keepC: number[] = [];
@@ -134,12 +174,37 @@ function buildTerms(d: HierarchicalData, n: number, xMin: number, maxDraws: numb
         keepC.push(Math.log(d.w[j] / sw) - d.logPrior[j]);
       }
     }
-    for (let k = 0; k < keepX.length; k++) xs.push(keepX[k], keepY[k], keepC[k]);
-    offsets.push(offsets[offsets.length - 1] + keepX.length);
-    dzKept.push(d.dz ? d.dz[i] : 0);
-    maxK = Math.max(maxK, keepX.length);
+    const K = keepX.length;
+    let mx = 0, my = 0, mc = -Infinity;
+    for (let k = 0; k < K; k++) {
+      mx += keepX[k];
+      my += keepY[k];
+      if (keepC[k] > mc) mc = keepC[k];
+    }
+    mx /= K;
+    my /= K;
+    for (let k = 0; k < K; k++, o += 3) {
+      t[o] = keepX[k] - mx;
+      t[o + 1] = keepY[k] - my;
+      t[o + 2] = keepC[k] - mc;
+    }
+    xc[kept] = mx;
+    yc[kept] = my;
+    cmax[kept] = mc;
+    dz[kept] = d.dz ? d.dz[i] : 0;
+    if (f) f[kept] = weight![i];
+    kept++;
+    offsets[kept] = offsets[kept - 1] + K;
   }
-  return { t: Float64Array.from(xs), offsets: Int32Array.from(offsets), dz: Float64Array.from(dzKept), n: offsets.length - 1, maxK, objectsSubsampled, dropped };
+  return { t, offsets, cmax, xc, yc, dz, ...(f ? { f } : {}), n: kept, objectsSubsampled, dropped, total };
+}
+
+/** sum_i f_i (n without weights): the weight of the per-object normalisation terms. */
+function weightSum(terms: CompactTerms): number {
+  if (!terms.f) return terms.n;
+  let s = 0;
+  for (let i = 0; i < terms.n; i++) s += terms.f[i];
+  return s;
 }
 
 /**
@@ -150,73 +215,89 @@ function buildTerms(d: HierarchicalData, n: number, xMin: number, maxDraws: numb
  * multiply-add per object, not per draw, and the x model is unchanged). Each object's
  * marginal likelihood is the importance-sampling estimate of Hogg, Myers & Bovy (2010, eq. 9)
  * L_i = sum_k w_ik f(x_ik, y_ik | theta) / pi_ik, with weights normalised per object, summed
- * by log-sum-exp. The selection renormalises f by P(x > xMin) = Phi((mu - xMin) / tau).
+ * by log-sum-exp (`hierarchical-sum.ts`: one pass, shifted by each object's largest ln w - ln pi,
+ * in fixed chunks of objects, optionally on several threads). With `objectWeight` each object's
+ * term, normalisation included, is multiplied by f_i. The selection renormalises f by
+ * P(x > xMin) = Phi((mu - xMin) / tau).
  * Priors: flat in a, c, mu; flat in the angle arctan b, p(b) ∝ (1 + b^2)^(-3/2) (Hogg, Bovy &
  * Lang 2010, sect. 3); flat in s > 0 and tau > 0 (hence the + ln s + ln tau Jacobians).
  */
-function makeLogPosterior(terms: Terms, pivot: number, xMin: number, hasC: boolean): (theta: Float64Array) => number {
-  const { t, offsets, n, dz } = terms;
-  const v = new Float64Array(terms.maxK);
+function makeLogPosterior(terms: CompactTerms, lik: LikelihoodSum, pivot: number, xMin: number, hasC: boolean): (theta: Float64Array) => number {
   const hasCut = xMin > -Infinity;
+  const nEff = weightSum(terms);
   return (theta) => {
     const a = theta[0], b = theta[1], lnS = theta[2], mu = theta[3], lnTau = theta[4];
     const c = hasC ? theta[5] : 0;
     if (!(lnS > -30 && lnS < 30 && lnTau > -30 && lnTau < 30) || !Number.isFinite(a) || !Number.isFinite(b) || !Number.isFinite(mu) || !Number.isFinite(c)) return -Infinity;
     const is2 = Math.exp(-2 * lnS);
     const it2 = Math.exp(-2 * lnTau);
-    const ap = a - b * pivot; // a + b (x - pivot) = ap + b x
-    let total = 0;
-    for (let i = 0; i < n; i++) {
-      const lo = offsets[i];
-      const k = offsets[i + 1] - lo;
-      const api = hasC ? ap + c * dz[i] : ap;
-      let m = -Infinity;
-      for (let j = 0, o = 3 * lo; j < k; j++, o += 3) {
-        const x = t[o];
-        const r = t[o + 1] - api - b * x;
-        const u = x - mu;
-        const val = t[o + 2] - 0.5 * (r * r * is2 + u * u * it2);
-        v[j] = val;
-        if (val > m) m = val;
-      }
-      let acc = 0;
-      for (let j = 0; j < k; j++) acc += Math.exp(v[j] - m);
-      total += m + Math.log(acc);
-    }
+    let total = lik.sum(a - b * pivot, b, 0.5 * is2, 0.5 * it2, mu, c);
     let logSel = 0;
     if (hasCut) {
       const p = normalCdf((mu - xMin) * Math.exp(-lnTau));
       if (!(p > 0)) return -Infinity;
       logSel = Math.log(p);
     }
-    total += n * (-LOG_2PI - lnS - lnTau - logSel);
+    total += nEff * (-LOG_2PI - lnS - lnTau - logSel);
     return total - 1.5 * Math.log1p(b * b) + lnS + lnTau;
   };
 }
 
-/**
- * Hierarchical fit (see `makeLogPosterior` for the model, priors and selection). The walkers
- * of the affine-invariant ensemble sampler (Goodman & Weare 2010) start from the Laplace
- * approximation at the posterior mode, found from a start at least squares on the posterior
- * means. Objects with no draw above the selection cut are left out (with a warning). Refuses,
- * with a PosterityError, draws without a finite interim prior.
- */
 interface Setup {
   terms: Terms;
   /** 5, or 6 with the covariate (c last). */
   dim: number;
   logPost: (theta: Float64Array) => number;
+  /** Releases the worker threads of the likelihood. */
+  close: () => void;
+  whenClosed: () => Promise<void>;
+  threads: number;
   x0: Float64Array;
   step: Float64Array;
   h: Float64Array;
+  /** Objects given. */
   n0: number;
+  /** Per object given: whether it takes part (objectWeight > 0), or undefined (all do). */
+  used: Uint8Array | undefined;
   xMin: number;
   pivot: number;
   maxDraws: number;
   warnings: string[];
 }
 
-function setup(objs: HierarchicalData, opts: HierarchicalOptions): Setup {
+function badWeight(message: string, row: number | undefined, got: string): never {
+  throw new PosterityError(
+    problem({ message: `hierarchical fit: ${message}`, column: 'objectWeight', ...(row !== undefined ? { row } : {}), expected: 'one probability in [0, 1] per object', got }),
+  );
+}
+
+/** The objects with used[i] = 1, as a new data set (draws, interim prior and dz). */
+function selectObjects(d: HierarchicalData, used: Uint8Array): HierarchicalData {
+  const n = d.offsets.length - 1;
+  let m = 0, k = 0;
+  for (let i = 0; i < n; i++) if (used[i]) {
+    m += d.offsets[i + 1] - d.offsets[i];
+    k++;
+  }
+  const x = new Float64Array(m), y = new Float64Array(m), w = new Float64Array(m), logPrior = new Float64Array(m);
+  const offsets = new Int32Array(k + 1);
+  const dz = d.dz ? new Float64Array(k) : undefined;
+  let o = 0, r = 0;
+  for (let i = 0; i < n; i++) {
+    if (!used[i]) continue;
+    const lo = d.offsets[i], hi = d.offsets[i + 1];
+    x.set(d.x.subarray(lo, hi), o);
+    y.set(d.y.subarray(lo, hi), o);
+    w.set(d.w.subarray(lo, hi), o);
+    logPrior.set(d.logPrior.subarray(lo, hi), o);
+    o += hi - lo;
+    if (dz) dz[r] = d.dz![i];
+    offsets[++r] = o;
+  }
+  return { x, y, w, logPrior, offsets, ...(dz ? { dz } : {}) };
+}
+
+function setup(objs: HierarchicalData, opts: HierarchicalOptions, defaultThreads?: number): Setup {
   if (!objs.logPrior) needPrior('no log_prior column was given');
   const n0 = validateDraws(objs, 'hierarchical fit');
   if (objs.logPrior.length !== objs.x.length) needPrior(`log_prior has ${objs.logPrior.length} values for ${objs.x.length} draws`);
@@ -231,36 +312,56 @@ function setup(objs: HierarchicalData, opts: HierarchicalOptions): Setup {
   const maxDraws = opts.maxDraws ?? 64;
   const xMin = opts.selection?.xMin ?? -Infinity;
   const warnings: string[] = [];
-  const dz = objs.dz;
-  if (dz) validateCovariate(dz, n0, 'hierarchical fit');
-  const terms = buildTerms(objs, n0, xMin, maxDraws, seed);
+  if (objs.dz) validateCovariate(objs.dz, n0, 'hierarchical fit');
+  // per-object weights: objects with f = 0 leave the data set before anything else sees it
+  let data = objs;
+  let used: Uint8Array | undefined;
+  let weight: Float64Array | undefined;
+  const fw = objs.objectWeight;
+  if (fw) {
+    if (fw.length !== n0) badWeight('objectWeight must have one value per object', undefined, `${fw.length} values for ${n0} objects`);
+    for (let i = 0; i < n0; i++) {
+      if (!(fw[i] >= 0 && fw[i] <= 1)) badWeight(`objectWeight of object ${i + 1} is not a probability in [0, 1]`, i + 1, String(fw[i]));
+    }
+    used = Uint8Array.from(fw, (v) => (v > 0 ? 1 : 0));
+    let nUsed = 0;
+    for (let i = 0; i < n0; i++) nUsed += used[i];
+    if (nUsed < n0) {
+      data = selectObjects(objs, used);
+      if (data.dz && nUsed > 0) validateCovariate(data.dz, nUsed, 'hierarchical fit (objects with objectWeight > 0)');
+    }
+    weight = new Float64Array(nUsed);
+    for (let i = 0, r = 0; i < n0; i++) if (used[i]) weight[r++] = fw[i];
+  }
+  const nUsed = data.offsets.length - 1;
+  const dz = data.dz;
+  const terms = buildTerms(data, nUsed, xMin, maxDraws, seed, weight);
   if (terms.dropped > 0) {
     warnings.push(`${terms.dropped} object(s) have no posterior draw above the selection cut x > ${xMin} and were left out`);
   }
   if (terms.n < 5) {
     throw new PosterityError(problem({ message: 'the hierarchical fit needs at least 5 objects with draws above the selection cut', expected: '>= 5', got: String(terms.n) }));
   }
-  const logPost = makeLogPosterior(terms, pivot, xMin, dz !== undefined);
 
   // start: least squares on posterior means (with dz, the three-column fit), scatter and x spread from the moments
-  const mom = objectMoments(objs);
+  const mom = objectMoments(data);
   const plane = dz ? leastSquaresWithCovariate(mom.x, mom.y, pivot, dz) : undefined;
   const ols = plane
-    ? { a: plane.a, b: plane.b, chi2: (plane.chi2 * (n0 - 2)) / (n0 - 3), varA: plane.cov[0], varB: plane.cov[4] }
+    ? { a: plane.a, b: plane.b, chi2: (plane.chi2 * (nUsed - 2)) / (nUsed - 3), varA: plane.cov[0], varB: plane.cov[4] }
     : weightedLeastSquares(mom.x, mom.y, pivot);
   let meanProj = 0, meanCxx = 0, mx = 0;
-  for (let i = 0; i < n0; i++) {
+  for (let i = 0; i < nUsed; i++) {
     meanProj += mom.cyy[i] - 2 * ols.b * mom.cxy[i] + ols.b * ols.b * mom.cxx[i];
     meanCxx += mom.cxx[i];
     mx += mom.x[i];
   }
-  meanProj /= n0;
-  meanCxx /= n0;
-  mx /= n0;
+  meanProj /= nUsed;
+  meanCxx /= nUsed;
+  mx /= nUsed;
   let vx = 0;
-  for (let i = 0; i < n0; i++) vx += (mom.x[i] - mx) ** 2;
-  vx /= n0 - 1;
-  const residVar = ols.chi2 / (n0 - 2);
+  for (let i = 0; i < nUsed; i++) vx += (mom.x[i] - mx) ** 2;
+  vx /= nUsed - 1;
+  const residVar = ols.chi2 / (nUsed - 2);
   const s0 = Math.sqrt(Math.max(residVar - meanProj, 0.05 * residVar, 1e-12));
   const tau0 = Math.sqrt(Math.max(vx - meanCxx, 0.05 * vx, 1e-12));
   const seB = Math.sqrt(ols.varB) || 1e-3;
@@ -275,14 +376,20 @@ function setup(objs: HierarchicalData, opts: HierarchicalOptions): Setup {
     step.push(2 * seC);
     h.push(0.1 * seC);
   }
+  const lik = createLikelihoodSum(terms, threadsFor(opts.threads ?? defaultThreads, terms));
+  const logPost = makeLogPosterior(terms, lik, pivot, xMin, dz !== undefined);
   return {
     terms,
     dim: x0.length,
     logPost,
+    close: () => lik.close(),
+    whenClosed: () => lik.whenClosed(),
+    threads: lik.threads,
     x0: Float64Array.from(x0),
     step: Float64Array.from(step),
     h: Float64Array.from(h),
     n0,
+    used,
     xMin,
     pivot,
     maxDraws,
@@ -292,12 +399,17 @@ function setup(objs: HierarchicalData, opts: HierarchicalOptions): Setup {
 
 /**
  * The log posterior the hierarchical fit explores (`makeLogPosterior`), in the sampling
- * coordinates (a, b, ln s, mu, ln tau[, c]) after validation, sub-sampling and the selection cut
- * of `opts`; for tests and checks. `dim` is 6 when the data have dz.
+ * coordinates (a, b, ln s, mu, ln tau[, c]) after validation, sub-sampling, the selection cut
+ * and the object weights of `opts`; for tests and checks. `dim` is 6 when the data have dz.
+ * One thread unless `opts.threads` says otherwise; with more, call `close()` when done (the
+ * workers never keep the process alive, but hold the draws until closed).
  */
-export function hierarchicalLogPosterior(objs: HierarchicalData, opts: HierarchicalOptions): { logPost: (theta: Float64Array) => number; dim: number } {
-  const st = setup(objs, opts);
-  return { logPost: st.logPost, dim: st.dim };
+export function hierarchicalLogPosterior(
+  objs: HierarchicalData,
+  opts: HierarchicalOptions,
+): { logPost: (theta: Float64Array) => number; dim: number; threads: number; close: () => void; whenClosed: () => Promise<void> } {
+  const st = setup(objs, opts, 1);
+  return { logPost: st.logPost, dim: st.dim, threads: st.threads, close: st.close, whenClosed: st.whenClosed };
 }
 
 /** Objects above which the mode search starts on an evenly strided subset of about this many. */
@@ -307,35 +419,40 @@ const PRESOLVE_OBJECTS = 2000;
  * Start for the mode search: for large samples, Nelder–Mead on an evenly strided subset of
  * the objects first (cheap), then a short search on all of them from there.
  */
-function presolve(st: Setup): { x0: Float64Array; step: Float64Array; maxEval: number } {
+function presolve(st: Setup, threads: number | undefined): { x0: Float64Array; step: Float64Array; maxEval: number } {
   const { terms } = st;
   if (terms.n <= 2 * PRESOLVE_OBJECTS) return { x0: st.x0, step: st.step, maxEval: 600 };
   const stride = Math.ceil(terms.n / PRESOLVE_OBJECTS);
-  const offsets = [0];
-  const parts: Float64Array[] = [];
-  const dz: number[] = [];
-  let maxK = 0;
-  for (let i = 0; i < terms.n; i += stride) {
+  const nSub = Math.ceil(terms.n / stride);
+  let total = 0;
+  for (let i = 0; i < terms.n; i += stride) total += terms.offsets[i + 1] - terms.offsets[i];
+  const t = sharedF32(3 * total);
+  const offsets = sharedI32(nSub + 1);
+  const cmax = sharedF64(nSub), xc = sharedF64(nSub), yc = sharedF64(nSub), dz = sharedF64(nSub);
+  const f = terms.f ? sharedF64(nSub) : undefined;
+  for (let i = 0, r = 0; i < terms.n; i += stride, r++) {
     const lo = terms.offsets[i];
     const hi = terms.offsets[i + 1];
-    parts.push(terms.t.subarray(3 * lo, 3 * hi));
-    dz.push(terms.dz[i]);
-    offsets.push(offsets[offsets.length - 1] + (hi - lo));
-    maxK = Math.max(maxK, hi - lo);
+    t.set(terms.t.subarray(3 * lo, 3 * hi), 3 * offsets[r]);
+    offsets[r + 1] = offsets[r] + (hi - lo);
+    cmax[r] = terms.cmax[i];
+    xc[r] = terms.xc[i];
+    yc[r] = terms.yc[i];
+    dz[r] = terms.dz[i];
+    if (f) f[r] = terms.f![i];
   }
-  const t = new Float64Array(3 * offsets[offsets.length - 1]);
-  let o = 0;
-  for (const p of parts) {
-    t.set(p, o);
-    o += p.length;
+  const sub: CompactTerms = { t, offsets, cmax, xc, yc, dz, ...(f ? { f } : {}), n: nSub };
+  const lik = createLikelihoodSum(sub, threadsFor(threads, sub));
+  try {
+    const lp = makeLogPosterior(sub, lik, st.pivot, st.xMin, st.dim === 6);
+    const min = nelderMead((x) => -lp(x), st.x0, st.step, { maxEval: 600, fTol: 1e-6 });
+    // the full-sample posterior is narrower by about sqrt(n / n_sub)
+    const shrink = Math.sqrt(nSub / terms.n);
+    const step = st.step.map((v) => v * shrink * 2);
+    return { x0: min.x, step, maxEval: 200 };
+  } finally {
+    lik.close();
   }
-  const sub: Terms = { t, offsets: Int32Array.from(offsets), dz: Float64Array.from(dz), n: offsets.length - 1, maxK, objectsSubsampled: 0, dropped: 0 };
-  const lp = makeLogPosterior(sub, st.pivot, st.xMin, st.dim === 6);
-  const min = nelderMead((x) => -lp(x), st.x0, st.step, { maxEval: 600, fTol: 1e-6 });
-  // the full-sample posterior is narrower by about sqrt(n / n_sub)
-  const shrink = Math.sqrt(sub.n / terms.n);
-  const step = st.step.map((v) => v * shrink * 2);
-  return { x0: min.x, step, maxEval: 200 };
 }
 
 /** Laplace approximation of the hierarchical posterior: mode and standard deviations of (a, b, s, mu, tau[, c]). */
@@ -357,21 +474,25 @@ export interface HierarchicalLaplace {
  */
 export function fitHierarchicalLaplace(objs: HierarchicalData, opts: HierarchicalOptions): HierarchicalLaplace {
   const st = setup(objs, opts);
-  const rng = makeRng(deriveSeed(opts.seed, 'hierarchical', 'start'));
-  const pre = presolve(st);
-  const start = startAtMode(st.logPost, pre.x0, pre.step, st.h, 10, rng, { maxEval: pre.maxEval });
-  const m = start.mode;
-  const dim = st.dim;
-  const mode = Float64Array.from(m);
-  mode[2] = Math.exp(m[2]);
-  mode[4] = Math.exp(m[4]);
-  const sd = new Float64Array(dim).fill(NaN);
-  if (start.cov) {
-    for (let d = 0; d < dim; d++) sd[d] = Math.sqrt(start.cov[d * dim + d]);
-    sd[2] *= mode[2];
-    sd[4] *= mode[4];
+  try {
+    const rng = makeRng(deriveSeed(opts.seed, 'hierarchical', 'start'));
+    const pre = presolve(st, opts.threads);
+    const start = startAtMode(st.logPost, pre.x0, pre.step, st.h, 10, rng, { maxEval: pre.maxEval });
+    const m = start.mode;
+    const dim = st.dim;
+    const mode = Float64Array.from(m);
+    mode[2] = Math.exp(m[2]);
+    mode[4] = Math.exp(m[4]);
+    const sd = new Float64Array(dim).fill(NaN);
+    if (start.cov) {
+      for (let d = 0; d < dim; d++) sd[d] = Math.sqrt(start.cov[d * dim + d]);
+      sd[2] *= mode[2];
+      sd[4] *= mode[4];
+    }
+    return { mode, sd, n: st.terms.n };
+  } finally {
+    st.close();
   }
-  return { mode, sd, n: st.terms.n };
 }
 
 /**
@@ -381,19 +502,29 @@ export function fitHierarchicalLaplace(objs: HierarchicalData, opts: Hierarchica
  * means. Objects with no draw above the selection cut are left out (with a warning). Refuses,
  * with a PosterityError, draws without a finite interim prior. With `objs.dz` the redshift
  * coefficient c is sampled as a sixth parameter (reported as `c` and `drawsC`, last in the
- * diagnostics). Caveat: the x model is one Gaussian for the whole bin, not a function of z;
+ * diagnostics). With `objs.objectWeight` objects of weight 0 are left out and the others enter
+ * with their weights; `n` counts the objects that entered, `effectiveDraws` has one entry per
+ * object given. Caveat: the x model is one Gaussian for the whole bin, not a function of z;
  * when the x distribution changes strongly across the bin (e.g. a redshift-dependent
  * completeness limit) it is only an approximate prior for the true x, which matters little
  * when the x errors are small compared with the spread of x.
  */
 export function fitHierarchical(objs: HierarchicalData, opts: HierarchicalOptions): HierarchicalFit {
   const st = setup(objs, opts);
-  const { terms, logPost, n0, xMin, maxDraws, warnings } = st;
+  try {
+    return sampleHierarchical(objs, opts, st);
+  } finally {
+    st.close();
+  }
+}
+
+function sampleHierarchical(objs: HierarchicalData, opts: HierarchicalOptions, st: Setup): HierarchicalFit {
+  const { terms, logPost, n0, used, xMin, maxDraws, warnings } = st;
   const { pivot, seed } = opts;
   const nWalkers = opts.nWalkers ?? 16;
   const nSteps = opts.nSteps ?? 300;
   const burn = Math.floor(nSteps / 5);
-  const pre = presolve(st);
+  const pre = presolve(st, opts.threads);
   const start = startAtMode(logPost, pre.x0, pre.step, st.h, nWalkers, makeRng(deriveSeed(seed, 'hierarchical', 'start')), { maxEval: pre.maxEval });
   const dim = st.dim;
   const run = sampleEnsemble(logPost, start.init, { nWalkers, dim, nSteps, seed: deriveSeed(seed, 'hierarchical', 'ensemble') });
@@ -423,10 +554,15 @@ export function fitHierarchical(objs: HierarchicalData, opts: HierarchicalOption
 
   const effectiveDraws = termEss(objs, n0, xMin, pivot, a.median, b.median, s.median, mu.median, tau.median, c?.median ?? 0);
   let poor = 0;
-  for (let i = 0; i < n0; i++) if (effectiveDraws[i] < 5) poor++;
-  if (poor > 0.1 * n0) {
+  let nIn = 0;
+  for (let i = 0; i < n0; i++) {
+    if (used && !used[i]) continue;
+    nIn++;
+    if (effectiveDraws[i] < 5) poor++;
+  }
+  if (poor > 0.1 * nIn) {
     warnings.push(
-      `${poor} of ${n0} objects have fewer than 5 effective draws under the population model: their marginal likelihoods are noisy importance-sampling estimates (more or better-spread draws would help)`,
+      `${poor} of ${nIn} objects have fewer than 5 effective draws under the population model: their marginal likelihoods are noisy importance-sampling estimates (more or better-spread draws would help)`,
     );
   }
   return {
@@ -442,7 +578,7 @@ export function fitHierarchical(objs: HierarchicalData, opts: HierarchicalOption
     warnings,
     effectiveDraws,
     xModel: { mu, tau },
-    drawsUsed: { maxDraws, objectsSubsampled: terms.objectsSubsampled, total: terms.t.length / 3 },
+    drawsUsed: { maxDraws, objectsSubsampled: terms.objectsSubsampled, total: terms.total },
   };
 }
 
