@@ -7,7 +7,7 @@ import type { ReleaseConfig } from '../../src/lib/bundle/schema.ts';
 import { normaliseWeights, kishEss } from '../../src/lib/core/stats/weights.ts';
 import { summarise, weightedCovariance, correlationFromCovariance, autocorrEss, type ParamSummary } from '../../src/lib/core/stats/summary.ts';
 import { chi2Sf } from '../../src/lib/core/stats/special.ts';
-import { histogram, kde, density2d, creditLevels, contourPaths } from '../../src/lib/core/stats/density.ts';
+import { chartsFor } from '../../src/lib/pipeline/summarise-kernel.ts';
 import { isMultimodal, priorEdgeMass } from '../../src/lib/core/stats/diagnostics.ts';
 import { FLAGS } from '../../src/lib/core/flags.ts';
 import { makeRng, deriveSeed } from '../../src/lib/core/random.ts';
@@ -82,62 +82,8 @@ function round(v: number, digits = 5): number {
   return Number(v.toPrecision(digits));
 }
 
-/** Corner-plot data: 1-D histograms and KDEs, 2-D contours enclosing 68% and 95% of the mass. */
-function chartsFor(names: string[], xs: Float64Array[], w: Float64Array, seed: number): ObjectCharts {
-  const k = xs.length;
-  const marginals: Marginal[] = [];
-  const ranges: [number, number][] = [];
-  for (let j = 0; j < k; j++) {
-    const h = histogram(xs[j], w, { rule: 'fd' });
-    const lo = h.edges[0], hi = h.edges[h.edges.length - 1];
-    ranges.push([lo, hi]);
-    const grid = new Float64Array(64);
-    for (let g = 0; g < 64; g++) grid[g] = lo + ((hi - lo) * g) / 63;
-    const dens = kde(xs[j], w, grid, { bandwidth: 'silverman' });
-    marginals.push({
-      param: names[j],
-      edges: Array.from(h.edges, (v) => round(v)),
-      density: Array.from(h.density, (v) => round(v, 4)),
-      kdeX: Array.from(grid, (v) => round(v)),
-      kdeY: Array.from(dens.density, (v) => round(v, 4)),
-      rule: `${h.rule}; KDE bandwidth ${round(dens.bandwidth, 3)} (Silverman)`,
-    });
-  }
-  const contours: Contour2d[] = [];
-  // a light scatter of equal-weight points under the contours
-  const rng = makeRng(seed);
-  const cdf = new Float64Array(w.length);
-  let acc = 0;
-  for (let i = 0; i < w.length; i++) cdf[i] = acc += w[i];
-  const nPts = Math.min(150, w.length);
-  const picks = new Int32Array(nPts);
-  for (let p = 0; p < nPts; p++) {
-    const u = rng.next() * acc;
-    let lo = 0, hi = w.length - 1;
-    while (lo < hi) {
-      const mid = (lo + hi) >> 1;
-      if (cdf[mid] < u) lo = mid + 1;
-      else hi = mid;
-    }
-    picks[p] = lo;
-  }
-  for (let a = 0; a < k; a++) {
-    for (let b = a + 1; b < k; b++) {
-      const grid = density2d(xs[a], xs[b], w, { nx: 40, ny: 40, xRange: ranges[a], yRange: ranges[b], smooth: 1 });
-      const levels = creditLevels(grid.z, MASS_LEVELS);
-      contours.push({
-        x: names[a],
-        y: names[b],
-        levels: MASS_LEVELS.map((mass, li) => ({
-          mass,
-          paths: contourPaths(grid, levels[li]).map((path) => path.map(([px, py]) => [round(px, 4), round(py, 4)] as [number, number])),
-        })),
-        points: Array.from(picks, (i) => [round(xs[a][i], 4), round(xs[b][i], 4)] as [number, number]),
-      });
-    }
-  }
-  return { marginals, contours, correlation: null };
-}
+// The corner-plot data is the kernel's own `chartsFor` (its method is tested in
+// test/pipeline/summarise-kernel.test.ts); what this reference checks is how the summaries are run.
 
 export interface SummariseOptions {
   popDraws?: number;

@@ -6,8 +6,8 @@
  * the release seed and the object id.
  */
 import { normaliseWeights, kishEss } from '../core/stats/weights.ts';
-import { summarise, weightedCovariance, correlationFromCovariance, autocorrEss, type ParamSummary } from '../core/stats/summary.ts';
-import { histogram, kde, density2d, creditLevels, contourPaths } from '../core/stats/density.ts';
+import { weightedCovariance, correlationFromCovariance, autocorrEss, sortDraws, summariseSorted, type ParamSummary, type SortedDraws } from '../core/stats/summary.ts';
+import { histogram, kde, kdeBandwidth, density2d, creditLevels, contourPaths, simplifyPath, sampleMoments, type SampleMoments } from '../core/stats/density.ts';
 import { isMultimodal, priorEdgeMass } from '../core/stats/diagnostics.ts';
 import { FLAGS } from '../core/flags.ts';
 import { makeRng, deriveSeed } from '../core/random.ts';
@@ -110,24 +110,103 @@ export function round(v: number, digits = 5): number {
   return Number(v.toPrecision(digits));
 }
 
-/** Corner-plot data: 1-D histograms and KDEs, 2-D contours enclosing 68% and 95% of the mass. */
-export function chartsFor(names: string[], xs: Float64Array[], w: Float64Array, seed: number): ObjectCharts {
+// ---- corner-plot data --------------------------------------------------------------------
+//
+// The corner plot (src/lib/charts/corner.ts) draws each panel 70 to 150 pixels wide over the
+// parameter's range plus 6% padding, so one pixel is at least 1/134 of a parameter's range
+// (`ranges` below: the extent of the draws, which the histogram spans). What we publish is
+// sized to that resolution rather than to double precision:
+// - coordinates are rounded to a decimal quantum of at most 1/500 of the range (the largest
+//   power of ten not above it), i.e. about three significant digits relative to the plotted
+//   range and at most a quarter of a pixel on the widest panel; densities likewise to at most
+//   1/500 of the panel's highest density;
+// - contour polylines are simplified by Douglas-Peucker with a tolerance of 1/300 of each
+//   axis's range (under half a pixel on the widest panel), which drops the many marching-
+//   squares points along nearly straight stretches;
+// - 50 scatter points per panel instead of 150: the corner plot shows at most `maxPoints`
+//   (default 50) of them, every ceil(n / 50)-th, so 150 points drew 50 anyway.
+// - the 2-D density is a binned 2-D Gaussian KDE (linear binning on 32 x 32 cells, then a
+//   separable Gaussian of the diagonal's 1-D Silverman bandwidth on each axis, at least one and
+//   at most six cells): a product-kernel KDE with the bandwidths of the KDE curves drawn on the
+//   diagonal, and smooth enough that the contours are not cell-scale noise (the 40 x 40
+//   histogram smoothed by one cell used before made ~190 mostly noisy paths per object, ~60
+//   now, about one per level and panel). 32 cells (2 to 5 pixels each) resolve a density
+//   smoothed over at least a cell, and cost about half of 40 (cells x kernel taps).
+// The 1-D KDEs are binned as well (density.ts).
+// The JSON schema (`Marginal`, `Contour2d`) is unchanged.
+
+/** Scatter points per 2-D panel: the corner plot's default `maxPoints`. */
+export const SCATTER_POINTS = 50;
+/** Quantum of published coordinates, as a fraction of the plotted range (at most). */
+const COORD_FRACTION = 1 / 500;
+/** Douglas-Peucker tolerance of contour paths, as a fraction of each axis's range. */
+const CONTOUR_TOLERANCE = 1 / 300;
+const CORNER_GRID = 32;
+/** Bounds of the 2-D smoothing in cells (our choice): at least the one cell used before, at most 6 (cost grows with it). */
+const MAX_SMOOTH_CELLS = 6;
+const KDE_POINTS = 64;
+
+/** A rounding function to the largest power of ten at most `span` x COORD_FRACTION (5 significant digits when the span is not usable). */
+function rounder(span: number): (v: number) => number {
+  if (!(span > 0) || !Number.isFinite(span)) return (v) => round(v);
+  const e = Math.floor(Math.log10(span * COORD_FRACTION));
+  if (e >= 0) {
+    const q = 10 ** e;
+    return (v) => (Number.isFinite(v) ? Math.round(v / q) * q : v);
+  }
+  const p = 10 ** -e;
+  // an integer divided by a power of ten is the double nearest to that decimal, so it prints as it
+  return (v) => (Number.isFinite(v) ? Math.round(v * p) / p : v);
+}
+
+/** Round a path's points and drop repeats that rounding creates (a closed path stays closed). */
+function roundPath(path: Array<[number, number]>, rx: (v: number) => number, ry: (v: number) => number): Array<[number, number]> {
+  const out: Array<[number, number]> = [];
+  let lx = NaN;
+  let ly = NaN;
+  for (let i = 0; i < path.length; i++) {
+    const qx = rx(path[i][0]);
+    const qy = ry(path[i][1]);
+    if (qx === lx && qy === ly) continue;
+    out.push([qx, qy]);
+    lx = qx;
+    ly = qy;
+  }
+  return out;
+}
+
+/**
+ * Corner-plot data: 1-D histograms and KDEs, 2-D contours enclosing 68% and 95% of the mass,
+ * at the resolution of the plot (see the notes above). `moments` (per parameter, from
+ * `sampleMoments` of the same draws) saves sorting each parameter again.
+ */
+export function chartsFor(names: string[], xs: Float64Array[], w: Float64Array, seed: number, moments?: SampleMoments[]): ObjectCharts {
   const k = xs.length;
   const marginals: Marginal[] = [];
   const ranges: [number, number][] = [];
+  const rounders: ((v: number) => number)[] = [];
+  const smooth: number[] = [];
   for (let j = 0; j < k; j++) {
-    const h = histogram(xs[j], w, { rule: 'fd' });
+    const m = moments?.[j] ?? sampleMoments(xs[j], w);
+    const h = histogram(xs[j], w, { rule: 'fd', moments: m });
     const lo = h.edges[0], hi = h.edges[h.edges.length - 1];
     ranges.push([lo, hi]);
-    const grid = new Float64Array(64);
-    for (let g = 0; g < 64; g++) grid[g] = lo + ((hi - lo) * g) / 63;
-    const dens = kde(xs[j], w, grid, { bandwidth: 'silverman' });
+    const rx = rounder(hi - lo);
+    rounders.push(rx);
+    const grid = new Float64Array(KDE_POINTS);
+    for (let g = 0; g < KDE_POINTS; g++) grid[g] = lo + ((hi - lo) * g) / (KDE_POINTS - 1);
+    const dens = kde(xs[j], w, grid, { bandwidth: kdeBandwidth(xs[j], w, 'silverman', m) });
+    let top = 0;
+    for (const v of h.density) if (v > top) top = v;
+    for (const v of dens.density) if (v > top) top = v;
+    const ry = rounder(top);
+    smooth.push(Math.min(MAX_SMOOTH_CELLS, Math.max(1, (dens.bandwidth * CORNER_GRID) / (hi - lo))) || 1);
     marginals.push({
       param: names[j],
-      edges: Array.from(h.edges, (v) => round(v)),
-      density: Array.from(h.density, (v) => round(v, 4)),
-      kdeX: Array.from(grid, (v) => round(v)),
-      kdeY: Array.from(dens.density, (v) => round(v, 4)),
+      edges: Array.from(h.edges, rx),
+      density: Array.from(h.density, ry),
+      kdeX: Array.from(grid, rx),
+      kdeY: Array.from(dens.density, ry),
       rule: `${h.rule}; KDE bandwidth ${round(dens.bandwidth, 3)} (Silverman)`,
     });
   }
@@ -137,7 +216,7 @@ export function chartsFor(names: string[], xs: Float64Array[], w: Float64Array, 
   const cdf = new Float64Array(w.length);
   let acc = 0;
   for (let i = 0; i < w.length; i++) cdf[i] = acc += w[i];
-  const nPts = Math.min(150, w.length);
+  const nPts = Math.min(SCATTER_POINTS, w.length);
   const picks = new Int32Array(nPts);
   for (let p = 0; p < nPts; p++) {
     const u = rng.next() * acc;
@@ -150,22 +229,31 @@ export function chartsFor(names: string[], xs: Float64Array[], w: Float64Array, 
     picks[p] = lo;
   }
   for (let a = 0; a < k; a++) {
+    const sa = ranges[a][1] - ranges[a][0];
     for (let b = a + 1; b < k; b++) {
-      const grid = density2d(xs[a], xs[b], w, { nx: 40, ny: 40, xRange: ranges[a], yRange: ranges[b], smooth: 1 });
+      const sb = ranges[b][1] - ranges[b][0];
+      const grid = density2d(xs[a], xs[b], w, { nx: CORNER_GRID, ny: CORNER_GRID, xRange: ranges[a], yRange: ranges[b], smooth: [smooth[a], smooth[b]], binning: 'linear' });
       const levels = creditLevels(grid.z, MASS_LEVELS);
+      const rx = rounders[a], ry = rounders[b];
       contours.push({
         x: names[a],
         y: names[b],
         levels: MASS_LEVELS.map((mass, li) => ({
           mass,
-          paths: contourPaths(grid, levels[li]).map((path) => path.map(([px, py]) => [round(px, 4), round(py, 4)] as [number, number])),
+          paths: contourPaths(grid, levels[li])
+            .map((path) => roundPath(simplifyPath(path, CONTOUR_TOLERANCE, sa, sb), rx, ry))
+            .filter((path) => path.length > 1),
         })),
-        points: Array.from(picks, (i) => [round(xs[a][i], 4), round(xs[b][i], 4)] as [number, number]),
+        points: Array.from(picks, (i) => [rx(xs[a][i]), ry(xs[b][i])] as [number, number]),
       });
     }
   }
   return { marginals, contours, correlation: null };
 }
+
+// Reused across objects: the per-parameter sort shared by the summary and the diagnostics.
+let sortWork: SortedDraws = { x: new Float64Array(1024), w: new Float64Array(1024), n: 0, total: 0 };
+
 
 /** Summarise every object of a batch. Throws `PosterityError` (naming the object) on invalid weights. */
 export function summariseBatch(ctx: KernelContext, batch: ObjectBatch): BatchResult {
@@ -204,8 +292,16 @@ export function summariseBatch(ctx: KernelContext, batch: ObjectBatch): BatchRes
     } else out.ess[o] = kishEss(w);
     if (out.ess[o] < q.minEss) flags |= FLAGS.LOW_ESS;
 
+    if (sortWork.x.length < len) {
+      const size = Math.max(len, sortWork.x.length * 2);
+      sortWork = { x: new Float64Array(size), w: new Float64Array(size), n: 0, total: 0 };
+    }
+    const moments: SampleMoments[] = [];
     for (let j = 0; j < k; j++) {
-      const s: ParamSummary = summarise(xs[j], w);
+      const sorted = sortDraws(xs[j], w, sortWork);
+      const s: ParamSummary = summariseSorted(sorted);
+      const mom = sampleMoments(xs[j], w, sorted);
+      moments.push(mom);
       const at = (o * k + j) * STAT_FIELDS;
       const st = out.stats;
       st[at] = s.mean;
@@ -219,7 +315,7 @@ export function summariseBatch(ctx: KernelContext, batch: ObjectBatch): BatchRes
       st[at + 8] = s.hdi68[1];
       st[at + 9] = s.hdi95[0];
       st[at + 10] = s.hdi95[1];
-      if (isMultimodal(xs[j], w, MULTIMODAL_OPTS(q.multimodalMinMass))) {
+      if (isMultimodal(xs[j], w, { ...MULTIMODAL_OPTS(q.multimodalMinMass), moments: mom })) {
         out.multimodal[o * k + j] = 1;
         flags |= FLAGS.MULTIMODAL;
       }
@@ -247,7 +343,7 @@ export function summariseBatch(ctx: KernelContext, batch: ObjectBatch): BatchRes
     }
 
     if (out.charts) {
-      const charts = chartsFor(ctx.names, xs, w, deriveSeed(ctx.seed, 'corner', id));
+      const charts = chartsFor(ctx.names, xs, w, deriveSeed(ctx.seed, 'corner', id), moments);
       const corr = correlationFromCovariance(cov, k);
       charts.correlation = Array.from({ length: k }, (_, r1) => Array.from(corr.subarray(r1 * k, r1 * k + k), (v) => round(v, 3)));
       out.charts.push(charts);

@@ -7,6 +7,10 @@ import {
   kde,
   kdeBandwidth,
   kdeDirect,
+  kdeErrorBound,
+  kdeUniform,
+  sampleMoments,
+  simplifyPath,
   type Density2d,
 } from '../../../src/lib/core/stats/density.ts';
 import { describeWithPython, runPython } from '../../helpers/python.ts';
@@ -87,6 +91,167 @@ describe('kde', () => {
     const { density } = kde(x, ones(x.length), grid, { bandwidth: h });
     const s = Math.sqrt(1 + h * h);
     for (let g = 0; g < grid.length; g++) expect(Math.abs(density[g] - phi(grid[g] / s) / s)).toBeLessThan(0.004);
+  });
+});
+
+describe('binned KDE against direct summation (linear binning: Silverman 1982; Wand 1994)', () => {
+  // |binned - direct| <= ((delta / h)^2 / 8 + exp(-cut^2 / 2)) phi(0) / h with delta <= h / 8 and
+  // cut = 5: the linear-interpolation error bound delta^2 / 8 max|K''| (textbook numerical
+  // analysis), max|K''| = phi(0) / h^3 for the Gaussian kernel, plus the dropped kernel tail.
+  it('stays within the guaranteed bound kdeErrorBound(h) on weighted, skewed and heavy-tailed samples', () => {
+    const cases: Array<[Float64Array, Float64Array]> = [
+      [normals(512, 41), uniforms(512, 42, 0.1, 1)],
+      [normals(512, 43).map((v) => Math.exp(v)), ones(512)], // log-normal: long right tail
+      [normals(512, 44).map((v, i) => (i % 7 === 0 ? 5 * v : v)), uniforms(512, 45)], // outliers
+      [new Float64Array([...normals(300, 46, -3, 0.3), ...normals(212, 47, 2, 1)]), uniforms(512, 48, 0.5, 1)],
+    ];
+    for (const [x, w] of cases) {
+      for (const G of [64, 256, 301]) {
+        const m = sampleMoments(x, w);
+        const grid = Float64Array.from({ length: G }, (_, g) => m.lo - 1 + ((m.hi - m.lo + 2) * g) / (G - 1));
+        for (const bw of ['silverman', 'scott'] as const) {
+          const { density, bandwidth } = kde(x, w, grid, { bandwidth: bw });
+          const ref = kdeDirect(x, w, grid, bandwidth);
+          let worst = 0;
+          for (let g = 0; g < G; g++) worst = Math.max(worst, Math.abs(density[g] - ref[g]));
+          expect(worst).toBeLessThanOrEqual(kdeErrorBound(bandwidth));
+        }
+      }
+    }
+  });
+
+  it('the bound is tight: one draw half-way between nodes h / 8 apart errs by 0.99 of it', () => {
+    // h = 1 and spacing 1/8 (both exact in binary): the draw at 1/16 is split evenly between the
+    // nodes 0 and 1/8, so at node 0 the estimate is (phi(0) + phi(1/8)) / 2 instead of phi(1/16),
+    // an error of 1.94e-3 phi(0) against the bound's 1.95e-3 phi(0) (closed form).
+    const x = new Float64Array([1 / 16]);
+    const d = kdeUniform(x, ones(1), -1, 1 / 8, 17, 1);
+    const err = Math.abs(d[8] - phi(1 / 16));
+    expect(Math.abs(d[8] - (phi(0) + phi(1 / 8)) / 2)).toBeLessThan(1e-15);
+    expect(err).toBeGreaterThan(0.99 * kdeErrorBound(1));
+    expect(err).toBeLessThanOrEqual(kdeErrorBound(1));
+  });
+
+  it('sums directly on a non-uniform grid', () => {
+    const x = normals(200, 49);
+    const grid = new Float64Array([-3, -1, -0.5, 0, 0.1, 2, 3.5]);
+    const { density, bandwidth } = kde(x, ones(200), grid, { bandwidth: 'silverman' });
+    expect(Array.from(density)).toEqual(Array.from(kdeDirect(x, ones(200), grid, bandwidth)));
+  });
+
+  it('shares a sort: moments from sortDraws give the same bandwidth and histogram', () => {
+    const x = normals(512, 50);
+    const w = uniforms(512, 51);
+    const m = sampleMoments(x, w);
+    expect(kdeBandwidth(x, w, 'silverman', m)).toBe(kdeBandwidth(x, w, 'silverman'));
+    expect(histogram(x, w, { moments: m })).toEqual(histogram(x, w));
+  });
+});
+
+describe('binned 2-D density', () => {
+  it('linear binning splits a draw between the four nearest cell centres and keeps in-range mass', () => {
+    // 2 x 2 cells on [0, 2]^2, centres at 0.5 and 1.5; a draw at (1, 0.75) is half-way in x, a quarter in y
+    const g = density2d(new Float64Array([1]), new Float64Array([0.75]), ones(1), { nx: 2, ny: 2, xRange: [0, 2], yRange: [0, 2], binning: 'linear' });
+    expect(Array.from(g.z)).toEqual([0.375, 0.375, 0.125, 0.125]);
+    // beyond the outermost centres (but inside the range) the weight goes to the outermost cells
+    const e = density2d(new Float64Array([0.1, 1.9]), new Float64Array([0.2, 1.99]), ones(2), { nx: 2, ny: 2, xRange: [0, 2], yRange: [0, 2], binning: 'linear' });
+    expect(Array.from(e.z)).toEqual([0.5, 0, 0, 0.5]);
+  });
+
+  it('linear binning plus smoothing is the 2-D product-kernel KDE at the cell centres within its binning bound', () => {
+    // bound per axis (delta / h)^2 / 8 of the kernel peak, as in 1-D; here delta / h = 1 / 4
+    const n = 3000;
+    const x = normals(n, 52);
+    const y = normals(n, 53).map((v, i) => 0.6 * x[i] + 0.8 * v);
+    const w = uniforms(n, 54, 0.2, 1);
+    const cells = 32;
+    const g = density2d(x, y, w, { nx: cells, ny: cells, xRange: [-5, 5], yRange: [-5, 5], smooth: [4, 4], binning: 'linear' });
+    const h = 4 * g.dx;
+    let total = 0;
+    for (let k = 0; k < n; k++) total += w[k];
+    let worst = 0;
+    let peak = 0;
+    for (let j = 0; j < cells; j++) {
+      for (let i = 0; i < cells; i++) {
+        const cx = -5 + (i + 0.5) * g.dx;
+        const cy = -5 + (j + 0.5) * g.dy;
+        let s = 0;
+        for (let k = 0; k < n; k++) s += w[k] * phi((cx - x[k]) / h) * phi((cy - y[k]) / h);
+        const direct = s / (total * h * h);
+        peak = Math.max(peak, direct);
+        worst = Math.max(worst, Math.abs(g.z[j * cells + i] - direct));
+      }
+    }
+    const bound = (2 * (1 / 16) / 8 + 2 * Math.exp(-8)) * (phi(0) * phi(0)) / (h * h);
+    expect(worst).toBeLessThanOrEqual(bound);
+    expect(worst).toBeLessThan(0.01 * peak); // in practice far inside the bound
+  });
+
+  it('one smoothing width for both axes equals the same width given per axis', () => {
+    const x = normals(500, 55);
+    const y = normals(500, 56);
+    const o = { nx: 20, ny: 20, xRange: [-4, 4] as [number, number], yRange: [-4, 4] as [number, number], binning: 'linear' as const };
+    expect(density2d(x, y, ones(500), { ...o, smooth: 1.5 }).z).toEqual(density2d(x, y, ones(500), { ...o, smooth: [1.5, 1.5] }).z);
+  });
+
+  it('creditLevels finds the same cell as sorting every cell (its definition)', () => {
+    const bySort = (z: Float64Array, m: number) => {
+      const s = Array.from(z, (v) => (v > 0 ? v : 0)).sort((a, b) => b - a);
+      const total = s.reduce((a, b) => a + b, 0);
+      let acc = 0;
+      for (const v of s) if ((acc += v) >= m * total) return v;
+      return s[s.length - 1];
+    };
+    for (let t = 0; t < 20; t++) {
+      const z = uniforms(1024, 60 + t).map((u, i) => (i % 5 === 0 ? 0 : u * u * u));
+      const levels = creditLevels(z, [0.68, 0.95, 0.5]);
+      expect(levels).toEqual([bySort(z, 0.68), bySort(z, 0.95), bySort(z, 0.5)]);
+    }
+  });
+});
+
+describe('simplifyPath (Douglas & Peucker 1973)', () => {
+  it('drops collinear points, keeps a corner and keeps a closed path closed', () => {
+    const line: Array<[number, number]> = Array.from({ length: 11 }, (_, i) => [i, 2 * i]);
+    expect(simplifyPath(line, 1e-9)).toEqual([[0, 0], [10, 20]]);
+    const corner: Array<[number, number]> = [[0, 0], [1, 0], [2, 0], [2, 1], [2, 2]];
+    expect(simplifyPath(corner, 0.1)).toEqual([[0, 0], [2, 0], [2, 2]]);
+    // a bump of 0.05 survives a tolerance of 0.01 and goes at 0.1
+    const bump: Array<[number, number]> = [[0, 0], [1, 0.05], [2, 0]];
+    expect(simplifyPath(bump, 0.01).length).toBe(3);
+    expect(simplifyPath(bump, 0.1).length).toBe(2);
+  });
+
+  it('a finely sampled circle keeps about as many points as the sagitta allows, all within the tolerance', () => {
+    // a chord of angle t leaves the circle by r (1 - cos(t / 2)), so tolerance e needs at least
+    // 2 pi / (2 acos(1 - e / r)) chords (plane geometry); DP is not optimal, so allow up to twice that
+    const r = 3;
+    const e = 1e-3 * r;
+    const n = 2000;
+    const circle: Array<[number, number]> = Array.from({ length: n }, (_, i) => [r * Math.cos((2 * Math.PI * i) / n), r * Math.sin((2 * Math.PI * i) / n)]);
+    circle.push(circle[0]); // closed: the last point repeats the first
+    const out = simplifyPath(circle, e);
+    const least = Math.ceil(Math.PI / Math.acos(1 - e / r));
+    expect(out[0]).toEqual(out[out.length - 1]);
+    expect(out.length - 1).toBeGreaterThanOrEqual(least);
+    expect(out.length - 1).toBeLessThanOrEqual(2 * least);
+    // every original point lies within e of the simplified polygon
+    const segDist = (p: [number, number], a: [number, number], b: [number, number]) => {
+      const ex = b[0] - a[0], ey = b[1] - a[1];
+      const t = Math.max(0, Math.min(1, ((p[0] - a[0]) * ex + (p[1] - a[1]) * ey) / (ex * ex + ey * ey)));
+      return Math.hypot(p[0] - a[0] - t * ex, p[1] - a[1] - t * ey);
+    };
+    for (const p of circle) {
+      let d = Infinity;
+      for (let k = 0; k + 1 < out.length; k++) d = Math.min(d, segDist(p, out[k], out[k + 1]));
+      expect(d).toBeLessThanOrEqual(e * (1 + 1e-9));
+    }
+  });
+
+  it('measures the tolerance in units of each axis', () => {
+    const path: Array<[number, number]> = [[0, 0], [0.5, 50], [1, 0]];
+    expect(simplifyPath(path, 0.1, 1, 1000).length).toBe(2); // 50 / 1000 = 0.05 < 0.1
+    expect(simplifyPath(path, 0.1, 1, 100).length).toBe(3); // 0.5 > 0.1
   });
 });
 

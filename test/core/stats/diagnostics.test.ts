@@ -1,5 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { countModes, DEFAULT_THRESHOLDS, isMultimodal, modeAnalysis, priorEdgeMass } from '../../../src/lib/core/stats/diagnostics.ts';
+import { sampleMoments } from '../../../src/lib/core/stats/density.ts';
+import { sortDraws } from '../../../src/lib/core/stats/summary.ts';
 import { normals, ones, uniforms } from './_random.ts';
 
 /** Equal mixture of N(-d/2, 1) and N(d/2, 1): bimodal exactly when d > 2 (closed form; Robertson & Fryer 1969). */
@@ -62,6 +64,25 @@ describe('isMultimodal (KDE at half the Silverman bandwidth, basins of at least 
     const small = new Float64Array([...normals(4750, 11, 0), ...normals(250, 12, 6)]); // 5% at +6 sigma
     expect(isMultimodal(small, ones(5000))).toBe(false);
     expect(isMultimodal(small, ones(5000), { minMass: 0.02 })).toBe(true);
+  });
+});
+
+describe('modeAnalysis with a shared sort', () => {
+  it('gives the same result with moments from sortDraws as on its own', () => {
+    for (let s = 0; s < 10; s++) {
+      const x = s % 2 ? mixtureDraws(3, 512, 200 + s) : normals(512, 200 + s);
+      const w = uniforms(512, 300 + s, 0.05, 1);
+      const opts = { minMass: 0.1, bandwidthFactor: 1, maxValleyRatio: 0.5 };
+      expect(modeAnalysis(x, w, { ...opts, moments: sampleMoments(x, w, sortDraws(x, w)) })).toEqual(modeAnalysis(x, w, opts));
+    }
+  });
+
+  it('counts the two modes of a 4-sigma mixture of 512 draws and one for a Gaussian (the kernel rule)', () => {
+    // equal mixture of N(-2, 1) and N(2, 1): valley 2 phi(2) / (phi(0) + phi(4)) = 0.27 of the
+    // peaks (closed form), well below the rule's 0.5 even after the KDE's smoothing
+    const opts = { minMass: 0.1, bandwidthFactor: 1, maxValleyRatio: 0.5 };
+    expect(modeAnalysis(mixtureDraws(4, 512, 400), ones(512), opts).modes).toBe(2);
+    expect(modeAnalysis(normals(512, 401), ones(512), opts).modes).toBe(1);
   });
 });
 

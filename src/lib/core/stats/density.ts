@@ -1,10 +1,12 @@
 /**
- * Weighted 1-D and 2-D posterior densities: histograms, Gaussian kernel density estimates,
- * binned 2-D densities, credible-mass levels and their contour paths.
+ * Weighted 1-D and 2-D posterior densities: histograms, Gaussian kernel density estimates
+ * (binned: linear binning and a discrete convolution, with a stated error bound against direct
+ * summation), binned 2-D densities, credible-mass levels, their contour paths and the
+ * simplification of those paths for plotting.
  * Contours are labelled by the posterior mass they enclose, never by "sigma".
  */
 import { kishEss } from './weights.ts';
-import { quantileSorted, sortDraws, weightedStd } from './summary.ts';
+import { quantileSorted, sortDraws, weightedStd, type SortedDraws } from './summary.ts';
 
 export type HistogramRule = 'fd' | 'scott' | 'fixed';
 
@@ -18,7 +20,14 @@ export interface Histogram {
 
 const MAX_BINS = 200;
 
-interface Moments {
+/**
+ * The sample quantities the histogram rules and KDE bandwidth rules need, from one sort of the
+ * draws: extent of the positive-weight draws, weighted standard deviation (normalised by the
+ * sum of weights), weighted IQR (midpoint-rule quantiles), Kish effective sample size and the
+ * total weight. Computing them once lets a caller share one sort between the histogram, the
+ * bandwidth and the mode analysis of a parameter.
+ */
+export interface SampleMoments {
   lo: number;
   hi: number;
   sigma: number;
@@ -27,13 +36,28 @@ interface Moments {
   total: number;
 }
 
-function moments(x: Float64Array, w: Float64Array): Moments {
-  const s = sortDraws(x, w);
-  const sigma = weightedStd(x, w);
+// Reused by `sampleMoments` when the caller passes no sorted draws (single-threaded per module instance).
+let momentsWork: SortedDraws = { x: new Float64Array(1024), w: new Float64Array(1024), n: 0, total: 0 };
+
+/**
+ * `SampleMoments` of weighted draws. `sorted`, when given, must be `sortDraws(x, w)` of the same
+ * draws; the result is then identical to the one computed here, without a second sort. The
+ * standard deviation is always taken in the original order of the draws so that it does not
+ * depend on whether a sort was shared.
+ */
+export function sampleMoments(x: Float64Array, w: Float64Array, sorted?: SortedDraws): SampleMoments {
+  let s = sorted;
+  if (!s) {
+    if (momentsWork.x.length < x.length) {
+      const size = Math.max(x.length, momentsWork.x.length * 2);
+      momentsWork = { x: new Float64Array(size), w: new Float64Array(size), n: 0, total: 0 };
+    }
+    s = sortDraws(x, w, momentsWork);
+  }
   return {
     lo: s.n ? s.x[0] : NaN,
     hi: s.n ? s.x[s.n - 1] : NaN,
-    sigma,
+    sigma: weightedStd(x, w),
     iqr: quantileSorted(s, 0.75) - quantileSorted(s, 0.25),
     neff: kishEss(s.w.subarray(0, s.n)),
     total: s.total,
@@ -47,13 +71,14 @@ function moments(x: Float64Array, w: Float64Array): Moments {
  * deviation. 'fd' falls back to Scott when the IQR is zero. `bins` fixes the number of bins
  * (rule 'fixed'). At most 200 bins. The range defaults to the extent of the positive-weight
  * draws; draws outside it are left out but still count in the normalising total weight.
+ * `moments` (from `sampleMoments` of the same draws) saves the sort.
  */
 export function histogram(
   x: Float64Array,
   w: Float64Array,
-  opts: { rule?: 'fd' | 'scott'; bins?: number; range?: [number, number] } = {},
+  opts: { rule?: 'fd' | 'scott'; bins?: number; range?: [number, number]; moments?: SampleMoments } = {},
 ): Histogram {
-  const m = moments(x, w);
+  const m = opts.moments ?? sampleMoments(x, w);
   let [lo, hi] = opts.range ?? [m.lo, m.hi];
   if (!(hi > lo)) {
     const c = Number.isFinite(lo) ? lo : 0;
@@ -95,10 +120,10 @@ export function histogram(
  * Bandwidth for a weighted Gaussian KDE with n the Kish effective sample size:
  * 'scott' h = sigma n^(-1/5) (Scott 1992, d = 1); 'silverman' h = 0.9 min(sigma, IQR / 1.34)
  * n^(-1/5) (Silverman 1986, eq. 3.31); sigma and IQR are weighted (normalised by the sum of
- * weights; midpoint-rule quantiles).
+ * weights; midpoint-rule quantiles). `moments` (from `sampleMoments` of the same draws) saves the sort.
  */
-export function kdeBandwidth(x: Float64Array, w: Float64Array, rule: 'scott' | 'silverman'): number {
-  const m = moments(x, w);
+export function kdeBandwidth(x: Float64Array, w: Float64Array, rule: 'scott' | 'silverman', moments?: SampleMoments): number {
+  const m = moments ?? sampleMoments(x, w);
   const f = Math.pow(Math.max(m.neff, 1), -0.2);
   if (rule === 'scott') return m.sigma * f;
   const spread = m.iqr > 0 ? Math.min(m.sigma, m.iqr / 1.34) : m.sigma;
@@ -127,12 +152,84 @@ export function kdeDirect(x: Float64Array, w: Float64Array, grid: Float64Array, 
 }
 
 /**
+ * Binned KDE settings. The mesh spacing delta is at most h / KDE_MESH_RATIO and the kernel is
+ * cut at KDE_KERNEL_CUT h. Linear binning replaces each draw's kernel K(g - x) by the linear
+ * interpolation of K between the two mesh nodes around x, whose error is at most
+ * delta^2 / 8 max|K''| (the interpolation error bound of the trade) with max|K''| = phi(0) / h^3
+ * for the Gaussian kernel at u = 0; the cut drops at most phi(KDE_KERNEL_CUT) / h per unit
+ * weight. So |binned - direct| <= ((delta / h)^2 / 8 + exp(-KDE_KERNEL_CUT^2 / 2)) phi(0) / h,
+ * at most 2.0e-3 phi(0) / h with these settings (`kdeErrorBound`); errors of different draws
+ * are of both signs and largely cancel, so in practice the error is far smaller.
+ * (Linear binning and discrete convolution: Silverman 1982, Applied Statistics 31, 93;
+ * Wand 1994, J. Comput. Graph. Stat. 3, 433.)
+ */
+export const KDE_MESH_RATIO = 8;
+export const KDE_KERNEL_CUT = 5;
+/** Largest mesh before `kde` falls back to direct summation (our choice; 8 MB of doubles). */
+const MAX_MESH = 1 << 20;
+
+/** Guaranteed bound on |binned KDE - direct KDE| at bandwidth h (see `KDE_MESH_RATIO`). */
+export function kdeErrorBound(h: number): number {
+  return (1 / (8 * KDE_MESH_RATIO * KDE_MESH_RATIO) + Math.exp(-0.5 * KDE_KERNEL_CUT * KDE_KERNEL_CUT)) * (INV_SQRT_2PI / h);
+}
+
+let meshWork = new Float64Array(4096);
+
+/**
+ * Binned weighted Gaussian KDE at the G uniform nodes g0 + g step (step > 0, h > 0): linear
+ * binning onto a mesh of spacing step / r (r the least integer making it at most
+ * h / KDE_MESH_RATIO), so every grid node is a mesh node, then the discrete convolution with the
+ * kernel sampled on the mesh and cut at KDE_KERNEL_CUT h, evaluated at the grid nodes only.
+ * Cost O(n + G KDE_MESH_RATIO KDE_KERNEL_CUT), whatever the grid span. Null when the mesh
+ * would exceed MAX_MESH nodes (the caller then sums directly).
+ */
+function binnedKdeUniform(x: Float64Array, w: Float64Array, g0: number, step: number, G: number, h: number): Float64Array | null {
+  const r = Math.max(1, Math.ceil((KDE_MESH_RATIO * step) / h));
+  const delta = step / r;
+  const L = Math.ceil((KDE_KERNEL_CUT * h) / delta);
+  const M = (G - 1) * r + 1 + 2 * L;
+  if (!(M <= MAX_MESH)) return null;
+  if (meshWork.length < M) meshWork = new Float64Array(Math.max(M, 2 * meshWork.length));
+  const mesh = meshWork;
+  mesh.fill(0, 0, M);
+  const origin = g0 - L * delta;
+  const inv = 1 / delta;
+  let total = 0;
+  for (let i = 0; i < x.length; i++) {
+    const wi = w[i];
+    if (!(wi > 0)) continue;
+    total += wi;
+    const pos = (x[i] - origin) * inv;
+    if (!(pos >= 0 && pos < M - 1)) continue; // farther than the kernel cut from every node (or NaN)
+    const j = Math.floor(pos);
+    const f = pos - j;
+    mesh[j] += wi * (1 - f);
+    mesh[j + 1] += wi * f;
+  }
+  const kernel = new Float64Array(L + 1);
+  const c = INV_SQRT_2PI / (h * total);
+  for (let d = 0; d <= L; d++) {
+    const u = (d * delta) / h;
+    kernel[d] = c * Math.exp(-0.5 * u * u);
+  }
+  const out = new Float64Array(G);
+  const k0 = kernel[0];
+  for (let g = 0; g < G; g++) {
+    const at = L + g * r;
+    let s = k0 * mesh[at];
+    for (let d = 1; d <= L; d++) s += kernel[d] * (mesh[at - d] + mesh[at + d]);
+    out[g] = s;
+  }
+  return out;
+}
+
+/**
  * Weighted Gaussian kernel density estimate on `grid` (ascending points). Bandwidth by the
- * rules of `kdeBandwidth` (default 'scott') or a given number. Fast by linear binning of the
- * weights onto a fine uniform mesh of spacing h/16 and summing the kernel (truncated at 6 h)
- * over the mesh (Silverman 1982; Wand 1994), then interpolating to the grid; relative error
- * about 1e-3 of the peak. Falls back to direct summation when the mesh would be too large.
- * A degenerate sample (zero spread) gets a bandwidth of 1/100 of the grid span.
+ * rules of `kdeBandwidth` (default 'scott') or a given number. On a uniform grid (spacings equal
+ * to 1e-9 of the span) the estimate is binned (`binnedKdeUniform`: linear binning and a
+ * discrete convolution; error bounded by `kdeErrorBound`); on any other grid, or when the
+ * mesh would be too large, it is summed directly (`kdeDirect`). A degenerate sample (zero
+ * spread) gets a bandwidth of 1/100 of the grid span.
  */
 export function kde(
   x: Float64Array,
@@ -145,54 +242,26 @@ export function kde(
   const G = grid.length;
   if (G === 0) return { density: new Float64Array(0), bandwidth: h };
   if (!(h > 0)) h = (grid[G - 1] - grid[0]) / 100 || 1;
-  const lo = grid[0] - 6 * h;
-  const hi = grid[G - 1] + 6 * h;
-  const delta = h / 16;
-  const M = Math.ceil((hi - lo) / delta) + 2;
-  if (M > 1 << 18) return { density: kdeDirect(x, w, grid, h), bandwidth: h };
-  const mesh = new Float64Array(M);
-  let total = 0;
-  for (let i = 0; i < x.length; i++) {
-    const wi = w[i];
-    if (!(wi > 0)) continue;
-    total += wi;
-    const pos = (x[i] - lo) / delta;
-    if (!(pos >= 0 && pos < M - 1)) continue; // beyond 6 h of the grid: no contribution
-    const j = Math.floor(pos);
-    const f = pos - j;
-    mesh[j] += wi * (1 - f);
-    mesh[j + 1] += wi * f;
-  }
-  const L = Math.ceil((6 * h) / delta);
-  const kernel = new Float64Array(2 * L + 1);
-  const c = INV_SQRT_2PI / (h * total);
-  for (let k = -L; k <= L; k++) {
-    const u = (k * delta) / h;
-    kernel[k + L] = c * Math.exp(-0.5 * u * u);
-  }
-  const atNode = (j: number): number => {
-    let s = 0;
-    const a = Math.max(0, j - L);
-    const b = Math.min(M - 1, j + L);
-    for (let m = a; m <= b; m++) s += mesh[m] * kernel[m - j + L];
-    return s;
-  };
-  const density = new Float64Array(G);
-  let cachedJ = -2;
-  let f0 = 0;
-  let f1 = 0;
-  for (let g = 0; g < G; g++) {
-    const pos = (grid[g] - lo) / delta;
-    const j = Math.min(M - 2, Math.floor(pos));
-    if (j !== cachedJ) {
-      f0 = j === cachedJ + 1 ? f1 : atNode(j);
-      f1 = atNode(j + 1);
-      cachedJ = j;
-    }
-    const t = pos - j;
-    density[g] = f0 + t * (f1 - f0);
-  }
-  return { density, bandwidth: h };
+  if (G === 1) return { density: kdeDirect(x, w, grid, h), bandwidth: h };
+  const g0 = grid[0];
+  const step = (grid[G - 1] - g0) / (G - 1);
+  let uniform = step > 0;
+  const tol = 1e-9 * (grid[G - 1] - g0);
+  for (let g = 1; uniform && g < G - 1; g++) if (!(Math.abs(grid[g] - (g0 + g * step)) <= tol)) uniform = false;
+  const binned = uniform ? binnedKdeUniform(x, w, g0, step, G, h) : null;
+  return { density: binned ?? kdeDirect(x, w, grid, h), bandwidth: h };
+}
+
+/**
+ * The binned KDE at the G uniform nodes g0 + g step, without a grid array (for callers that
+ * build the grid themselves, such as the mode analysis); see `kde` for the method and error.
+ */
+export function kdeUniform(x: Float64Array, w: Float64Array, g0: number, step: number, G: number, h: number): Float64Array {
+  const binned = step > 0 && h > 0 ? binnedKdeUniform(x, w, g0, step, G, h) : null;
+  if (binned) return binned;
+  const grid = new Float64Array(G);
+  for (let g = 0; g < G; g++) grid[g] = g0 + g * step;
+  return kdeDirect(x, w, grid, h);
 }
 
 /**
@@ -210,16 +279,22 @@ export interface Density2d {
 }
 
 /**
- * Weighted 2-D histogram normalised to a density (weight / (total weight x cell area)), draws
- * outside the ranges left out but counted in the total. `smooth` is the standard deviation,
- * in cells, of a separable Gaussian smoothing kernel (truncated at 4 sigma; mass smoothed past
- * the edges is lost).
+ * Weighted 2-D density on nx x ny cells, normalised to a density (weight / (total weight x cell
+ * area)); draws outside the ranges are left out but counted in the total. Binning 'nearest'
+ * (default) puts each draw's weight in its cell (a 2-D histogram); 'linear' splits it
+ * bilinearly between the four cell centres around it (linear binning, Wand 1994), with draws
+ * between the outermost centres and the range edge given to the outermost cells, so the
+ * in-range mass stays in the grid. `smooth` is the standard deviation, in cells, of a separable
+ * Gaussian smoothing kernel, one for both axes or [x, y] (truncated at 4 sigma; mass smoothed
+ * past the edges is lost; no smoothing unless both are positive): with linear binning this is
+ * the binned 2-D Gaussian product-kernel KDE of bandwidths smooth x cell size, evaluated at the
+ * cell centres.
  */
 export function density2d(
   x: Float64Array,
   y: Float64Array,
   w: Float64Array,
-  opts: { nx: number; ny: number; xRange: [number, number]; yRange: [number, number]; smooth?: number },
+  opts: { nx: number; ny: number; xRange: [number, number]; yRange: [number, number]; smooth?: number | [number, number]; binning?: 'nearest' | 'linear' },
 ): Density2d {
   const { nx, ny } = opts;
   const [x0, x1] = opts.xRange;
@@ -228,65 +303,194 @@ export function density2d(
   const dy = (y1 - y0) / ny;
   let z: Float64Array = new Float64Array(nx * ny);
   let total = 0;
-  for (let k = 0; k < x.length; k++) {
-    const wk = w[k];
-    if (!(wk > 0)) continue;
-    total += wk;
-    let i = Math.floor((x[k] - x0) / dx);
-    let j = Math.floor((y[k] - y0) / dy);
-    if (x[k] === x1) i = nx - 1; // upper edges are inclusive
-    if (y[k] === y1) j = ny - 1;
-    if (i >= 0 && i < nx && j >= 0 && j < ny) z[j * nx + i] += wk;
+  if (opts.binning === 'linear') {
+    const ix = 1 / dx;
+    const iy = 1 / dy;
+    for (let k = 0; k < x.length; k++) {
+      const wk = w[k];
+      if (!(wk > 0)) continue;
+      total += wk;
+      const xk = x[k];
+      const yk = y[k];
+      if (!(xk >= x0 && xk <= x1 && yk >= y0 && yk <= y1)) continue;
+      // position in cell-centre units, clamped to the outermost centres
+      let px = (xk - x0) * ix - 0.5;
+      let py = (yk - y0) * iy - 0.5;
+      px = px < 0 ? 0 : px > nx - 1 ? nx - 1 : px;
+      py = py < 0 ? 0 : py > ny - 1 ? ny - 1 : py;
+      let i = Math.floor(px);
+      let j = Math.floor(py);
+      if (i > nx - 2) i = Math.max(0, nx - 2);
+      if (j > ny - 2) j = Math.max(0, ny - 2);
+      const fx = nx > 1 ? px - i : 0;
+      const fy = ny > 1 ? py - j : 0;
+      const c = j * nx + i;
+      const a = wk * (1 - fy);
+      const b = wk * fy;
+      z[c] += a * (1 - fx);
+      if (fx > 0) z[c + 1] += a * fx;
+      if (fy > 0) {
+        z[c + nx] += b * (1 - fx);
+        if (fx > 0) z[c + nx + 1] += b * fx;
+      }
+    }
+  } else {
+    for (let k = 0; k < x.length; k++) {
+      const wk = w[k];
+      if (!(wk > 0)) continue;
+      total += wk;
+      let i = Math.floor((x[k] - x0) / dx);
+      let j = Math.floor((y[k] - y0) / dy);
+      if (x[k] === x1) i = nx - 1; // upper edges are inclusive
+      if (y[k] === y1) j = ny - 1;
+      if (i >= 0 && i < nx && j >= 0 && j < ny) z[j * nx + i] += wk;
+    }
   }
   const norm = total > 0 ? 1 / (total * dx * dy) : 0;
   for (let c = 0; c < z.length; c++) z[c] *= norm;
-  if (opts.smooth && opts.smooth > 0) z = gaussianSmooth2d(z, nx, ny, opts.smooth);
+  const [sx, sy] = typeof opts.smooth === 'number' ? [opts.smooth, opts.smooth] : (opts.smooth ?? [0, 0]);
+  if (sx > 0 && sy > 0) z = gaussianSmooth2d(z, nx, ny, sx, sy);
   return { nx, ny, x0, dx, y0, dy, z };
 }
 
-function gaussianSmooth2d(z: Float64Array, nx: number, ny: number, sigma: number): Float64Array {
+let smoothRow = new Float64Array(0);
+let smoothTmp = new Float64Array(0);
+
+/** Normalised Gaussian taps of standard deviation `sigma` cells, cut at ceil(4 sigma) cells. */
+function gaussianTaps(sigma: number): Float64Array {
   const L = Math.ceil(4 * sigma);
   const k = new Float64Array(2 * L + 1);
   let ks = 0;
   for (let i = -L; i <= L; i++) ks += k[i + L] = Math.exp((-0.5 * i * i) / (sigma * sigma));
   for (let i = 0; i < k.length; i++) k[i] /= ks;
-  const tmp = new Float64Array(z.length);
+  return k;
+}
+
+/**
+ * Separable Gaussian smoothing, standard deviations `sx` and `sy` in cells (normalised kernels
+ * truncated at ceil(4 sigma) cells); the grid is embedded in zeros, so mass smoothed past the
+ * edges is lost. Both passes visit only the span of non-zero cells of each row (plus the
+ * kernel reach), which skips the empty corners of a panel.
+ */
+function gaussianSmooth2d(z: Float64Array, nx: number, ny: number, sx: number, sy: number): Float64Array {
+  const kx = gaussianTaps(sx);
+  const ky = gaussianTaps(sy);
+  const Lx = (kx.length - 1) / 2;
+  const Ly = (ky.length - 1) / 2;
+  const PX = nx + 2 * Lx;
+  if (smoothRow.length < PX) smoothRow = new Float64Array(PX);
+  if (smoothTmp.length < nx * ny) smoothTmp = new Float64Array(nx * ny);
+  const row = smoothRow; // one row with Lx zeros on both sides (plain arrays: faster than subarray views)
+  const tmp = smoothTmp; // the row-smoothed grid
+  const lo = new Int32Array(ny); // span of non-zero cells of each row of tmp (empty: lo > hi)
+  const hi = new Int32Array(ny);
+  row.fill(0);
   for (let j = 0; j < ny; j++) {
+    const src = j * nx;
+    let first = -1;
+    let last = -2;
     for (let i = 0; i < nx; i++) {
-      let s = 0;
-      for (let d = Math.max(-L, -i); d <= Math.min(L, nx - 1 - i); d++) s += z[j * nx + i + d] * k[d + L];
-      tmp[j * nx + i] = s;
+      if (z[src + i] !== 0) {
+        if (first < 0) first = i;
+        last = i;
+      }
     }
-  }
-  const out = new Float64Array(z.length);
-  for (let j = 0; j < ny; j++) {
-    for (let i = 0; i < nx; i++) {
+    lo[j] = 0;
+    hi[j] = -1;
+    if (first < 0) continue;
+    for (let i = first; i <= last; i++) row[i + Lx] = z[src + i];
+    const a = Math.max(0, first - Lx);
+    const b = Math.min(nx - 1, last + Lx);
+    for (let i = a; i <= b; i++) {
       let s = 0;
-      for (let d = Math.max(-L, -j); d <= Math.min(L, ny - 1 - j); d++) s += tmp[(j + d) * nx + i] * k[d + L];
-      out[j * nx + i] = s;
+      for (let d = 0; d <= 2 * Lx; d++) s += row[i + d] * kx[d];
+      tmp[src + i] = s;
+    }
+    for (let i = first; i <= last; i++) row[i + Lx] = 0;
+    lo[j] = a;
+    hi[j] = b;
+  }
+  // columns, as a scatter of each row of tmp into the output rows within reach
+  const out = new Float64Array(nx * ny);
+  for (let r = 0; r < ny; r++) {
+    const a = lo[r];
+    const b = hi[r];
+    if (b < a) continue;
+    const src = r * nx;
+    const d0 = Math.max(-Ly, -r);
+    const d1 = Math.min(Ly, ny - 1 - r);
+    for (let d = d0; d <= d1; d++) {
+      const kd = ky[Ly - d]; // symmetric kernel
+      const dst = (r + d) * nx;
+      for (let i = a; i <= b; i++) out[dst + i] += tmp[src + i] * kd;
     }
   }
   return out;
 }
 
+const LEVEL_BUCKETS = 1024;
+const levelMass = new Float64Array(LEVEL_BUCKETS);
+let levelVals = new Float64Array(0);
+let levelBucket = new Int16Array(0);
+
 /**
  * Density thresholds whose superlevel sets enclose each fraction in `masses` of the total:
- * cells sorted by density, descending, and accumulated until the mass is reached; the level
- * is the density of the cell that reaches it. Returned in the order of `masses`.
+ * cells taken by density, descending, and accumulated until the mass is reached; the level
+ * is the density of the cell that reaches it. Returned in the order of `masses`. Instead of
+ * sorting every cell, the cells are counted into 1024 buckets of equal density width and only
+ * the bucket where the mass is reached is sorted (the same cell is found).
  */
 export function creditLevels(z: Float64Array, masses: readonly number[]): number[] {
-  const sorted = Float64Array.from(z, (v) => (v > 0 ? v : 0)).sort(); // ascending
+  const n = z.length;
+  if (n === 0) return masses.map(() => NaN);
+  let max = 0;
   let total = 0;
-  for (let i = 0; i < sorted.length; i++) total += sorted[i];
-  return masses.map((m) => {
+  for (let i = 0; i < n; i++) {
+    const v = z[i];
+    if (v > 0) {
+      total += v;
+      if (v > max) max = v;
+    }
+  }
+  if (!(max > 0) || !Number.isFinite(total)) return masses.map(() => 0);
+  const B = LEVEL_BUCKETS;
+  const scale = B / max;
+  const mass = levelMass;
+  mass.fill(0);
+  if (levelBucket.length < n) {
+    levelBucket = new Int16Array(n);
+    levelVals = new Float64Array(n);
+  }
+  const bucket = levelBucket;
+  for (let i = 0; i < n; i++) {
+    const v = z[i];
+    if (v > 0) {
+      const b = Math.min(B - 1, Math.floor(v * scale));
+      bucket[i] = b;
+      mass[b] += v;
+    } else bucket[i] = -1;
+  }
+  const out: number[] = [];
+  for (const m of masses) {
     const target = m * total;
     let acc = 0;
-    for (let i = sorted.length - 1; i >= 0; i--) {
-      acc += sorted[i];
-      if (acc >= target) return sorted[i];
+    let b = B - 1;
+    while (b > 0 && acc + mass[b] < target) acc += mass[b--];
+    // the mass is reached inside bucket b (or b is the last one): walk its cells, densest first
+    let c = 0;
+    for (let i = 0; i < n; i++) if (bucket[i] === b) levelVals[c++] = z[i];
+    const vals = levelVals.subarray(0, c).sort();
+    let level = c ? vals[0] : 0; // rounding left the target unreached: the least positive density
+    for (let t = c - 1; t >= 0; t--) {
+      acc += vals[t];
+      if (acc >= target) {
+        level = vals[t];
+        break;
+      }
     }
-    return sorted.length ? sorted[0] : NaN;
-  });
+    out.push(level);
+  }
+  return out;
 }
 
 // Segment table of marching squares: corner bits bl = 1, br = 2, tr = 4, tl = 8 (inside when
@@ -304,81 +508,246 @@ const SEGMENTS: ReadonlyArray<readonly number[]> = [
  * the mean of their four corners.
  */
 export function contourPaths(grid: Density2d, level: number): Array<Array<[number, number]>> {
-  const { nx, ny, x0, dx, y0, dy, z } = grid;
+  const { nx, ny, z } = grid;
   const NX = nx + 2;
   const NY = ny + 2;
-  const val = (I: number, J: number): number => {
-    if (I < 1 || J < 1 || I > nx || J > ny) return -Infinity;
-    const v = z[(J - 1) * nx + (I - 1)];
-    return Number.isNaN(v) ? -Infinity : v;
-  };
-  const cx = (I: number) => x0 + (Math.min(nx - 1, Math.max(0, I - 1)) + 0.5) * dx;
-  const cy = (J: number) => y0 + (Math.min(ny - 1, Math.max(0, J - 1)) + 0.5) * dy;
-  const point = (id: number): [number, number] => {
-    const node = id >> 1;
-    const I = node % NX;
-    const J = (node - I) / NX;
-    const I2 = id & 1 ? I : I + 1;
-    const J2 = id & 1 ? J + 1 : J;
-    const a = val(I, J);
-    const b = val(I2, J2);
-    let t = (level - a) / (b - a);
-    if (!Number.isFinite(t)) t = 0.5; // a border node shares its neighbour's position
-    return [cx(I) + t * (cx(I2) - cx(I)), cy(J) + t * (cy(J2) - cy(J))];
-  };
-  const segA: number[] = [];
-  const segB: number[] = [];
+  const w = contourWork(NX * NY);
+  // node values with the border (and NaN) at -Infinity
+  const V = w.V;
+  V.fill(-Infinity, 0, NX * NY);
+  for (let j = 0; j < ny; j++) {
+    for (let i = 0; i < nx; i++) {
+      const v = z[j * nx + i];
+      if (!Number.isNaN(v)) V[(j + 1) * NX + i + 1] = v;
+    }
+  }
+  // edge id: 2 x (node index of its lower-left end) + (0 horizontal, 1 vertical); each edge
+  // crossing belongs to at most two segments (the two cells sharing the edge)
+  const { segA, segB, slot0, slot1 } = w;
+  slot0.fill(-1, 0, 2 * NX * NY);
+  slot1.fill(-1, 0, 2 * NX * NY);
+  let nSeg = 0;
   for (let J = 0; J < NY - 1; J++) {
     for (let I = 0; I < NX - 1; I++) {
-      const bl = val(I, J);
-      const br = val(I + 1, J);
-      const tr = val(I + 1, J + 1);
-      const tl = val(I, J + 1);
+      const n0 = J * NX + I;
+      const bl = V[n0];
+      const br = V[n0 + 1];
+      const tr = V[n0 + NX + 1];
+      const tl = V[n0 + NX];
       const code = (bl >= level ? 1 : 0) | (br >= level ? 2 : 0) | (tr >= level ? 4 : 0) | (tl >= level ? 8 : 0);
       if (code === 0 || code === 15) continue;
-      const edge = [2 * (J * NX + I), 2 * (J * NX + I + 1) + 1, 2 * ((J + 1) * NX + I), 2 * (J * NX + I) + 1];
-      let pairs: readonly number[] = SEGMENTS[code];
+      const e0 = 2 * n0; // bottom
+      const e1 = 2 * (n0 + 1) + 1; // right
+      const e2 = 2 * (n0 + NX); // top
+      const e3 = 2 * n0 + 1; // left
+      let p0: number, p1: number, p2 = -1, p3 = -1;
       if (code === 5 || code === 10) {
         const centreInside = (bl + br + tr + tl) / 4 >= level;
-        pairs = (code === 5) === centreInside ? [0, 1, 2, 3] : [3, 0, 1, 2];
+        if ((code === 5) === centreInside) {
+          p0 = e0;
+          p1 = e1;
+          p2 = e2;
+          p3 = e3;
+        } else {
+          p0 = e3;
+          p1 = e0;
+          p2 = e1;
+          p3 = e2;
+        }
+      } else {
+        const pair = SEGMENTS[code];
+        const q0 = pair[0];
+        const q1 = pair[1];
+        p0 = q0 === 0 ? e0 : q0 === 1 ? e1 : q0 === 2 ? e2 : e3;
+        p1 = q1 === 0 ? e0 : q1 === 1 ? e1 : q1 === 2 ? e2 : e3;
       }
-      for (let p = 0; p < pairs.length; p += 2) {
-        segA.push(edge[pairs[p]]);
-        segB.push(edge[pairs[p + 1]]);
+      for (let q = 0; q < 2; q++) {
+        const ea = q ? p2 : p0;
+        const eb = q ? p3 : p1;
+        if (ea < 0) break;
+        segA[nSeg] = ea;
+        segB[nSeg] = eb;
+        if (slot0[ea] < 0) slot0[ea] = nSeg;
+        else slot1[ea] = nSeg;
+        if (slot0[eb] < 0) slot0[eb] = nSeg;
+        else slot1[eb] = nSeg;
+        nSeg++;
       }
     }
   }
-  // join segments sharing an edge crossing
-  const byEdge = new Map<number, number[]>();
-  for (let s = 0; s < segA.length; s++) {
-    for (const e of [segA[s], segB[s]]) {
-      const list = byEdge.get(e);
-      if (list) list.push(s);
-      else byEdge.set(e, [s]);
-    }
-  }
-  const used = new Uint8Array(segA.length);
+  const used = new Uint8Array(nSeg);
   const paths: Array<Array<[number, number]>> = [];
-  const walk = (start: number, fromEdge: number): void => {
-    const ids = [fromEdge];
-    let s = start;
-    let e = fromEdge;
-    while (s >= 0 && !used[s]) {
-      used[s] = 1;
-      e = segA[s] === e ? segB[s] : segA[s];
-      ids.push(e);
-      const next = (byEdge.get(e) ?? []).find((t) => !used[t]);
-      s = next ?? -1;
-    }
-    const pts: Array<[number, number]> = [];
-    for (const id of ids) {
-      const p = point(id);
-      const last = pts[pts.length - 1];
-      if (!last || last[0] !== p[0] || last[1] !== p[1]) pts.push(p);
-    }
-    if (pts.length > 1) paths.push(pts);
-  };
-  for (const [e, list] of byEdge) if (list.length === 1 && !used[list[0]]) walk(list[0], e);
-  for (let s = 0; s < segA.length; s++) if (!used[s]) walk(s, segA[s]);
+  const ends = (e: number) => (slot0[e] >= 0 ? 1 : 0) + (slot1[e] >= 0 ? 1 : 0);
+  // open paths first (from an end crossing that only one segment uses), then closed loops
+  for (let s = 0; s < nSeg; s++) {
+    if (!used[s] && ends(segA[s]) === 1) walkContour(grid, level, V, w, used, s, segA[s], paths);
+    if (!used[s] && ends(segB[s]) === 1) walkContour(grid, level, V, w, used, s, segB[s], paths);
+  }
+  for (let s = 0; s < nSeg; s++) if (!used[s]) walkContour(grid, level, V, w, used, s, segA[s], paths);
   return paths;
+}
+
+interface ContourWork {
+  V: Float64Array;
+  segA: Int32Array;
+  segB: Int32Array;
+  slot0: Int32Array;
+  slot1: Int32Array;
+}
+let contourBuf: ContourWork | null = null;
+
+function contourWork(nodes: number): ContourWork {
+  if (contourBuf && contourBuf.V.length >= nodes) return contourBuf;
+  contourBuf = {
+    V: new Float64Array(nodes),
+    segA: new Int32Array(2 * nodes),
+    segB: new Int32Array(2 * nodes),
+    slot0: new Int32Array(2 * nodes),
+    slot1: new Int32Array(2 * nodes),
+  };
+  return contourBuf;
+}
+
+/** Follows segments from `start`, entering by edge `fromEdge`, and appends the polyline to `paths`. */
+function walkContour(
+  grid: Density2d,
+  level: number,
+  V: Float64Array,
+  w: ContourWork,
+  used: Uint8Array,
+  start: number,
+  fromEdge: number,
+  paths: Array<Array<[number, number]>>,
+): void {
+  const { segA, segB, slot0, slot1 } = w;
+  const pts: Array<[number, number]> = [];
+  pushCrossing(grid, level, V, fromEdge, pts);
+  let s = start;
+  let e = fromEdge;
+  while (s >= 0 && !used[s]) {
+    used[s] = 1;
+    e = segA[s] === e ? segB[s] : segA[s];
+    pushCrossing(grid, level, V, e, pts);
+    const s0 = slot0[e];
+    const s1 = slot1[e];
+    s = s0 >= 0 && !used[s0] ? s0 : s1 >= 0 && !used[s1] ? s1 : -1;
+  }
+  if (pts.length > 1) paths.push(pts);
+}
+
+/** Appends the crossing of edge `id` (linear interpolation between its two nodes), unless it repeats the last point. */
+function pushCrossing(grid: Density2d, level: number, V: Float64Array, id: number, pts: Array<[number, number]>): void {
+  const { nx, ny, x0, dx, y0, dy } = grid;
+  const NX = nx + 2;
+  const node = id >> 1;
+  const I = node % NX;
+  const J = (node - I) / NX;
+  const I2 = id & 1 ? I : I + 1;
+  const J2 = id & 1 ? J + 1 : J;
+  const a = V[node];
+  const b = V[J2 * NX + I2];
+  let t = (level - a) / (b - a);
+  if (!Number.isFinite(t)) t = 0.5; // a border node shares its neighbour's position
+  // cell centres, border nodes clamped to the outermost centres
+  const xa = x0 + (Math.min(nx - 1, Math.max(0, I - 1)) + 0.5) * dx;
+  const xb = x0 + (Math.min(nx - 1, Math.max(0, I2 - 1)) + 0.5) * dx;
+  const ya = y0 + (Math.min(ny - 1, Math.max(0, J - 1)) + 0.5) * dy;
+  const yb = y0 + (Math.min(ny - 1, Math.max(0, J2 - 1)) + 0.5) * dy;
+  const px = xa + t * (xb - xa);
+  const py = ya + t * (yb - ya);
+  const last = pts[pts.length - 1];
+  if (!last || last[0] !== px || last[1] !== py) pts.push([px, py]);
+}
+
+/**
+ * Douglas-Peucker simplification (Douglas & Peucker 1973, Cartographica 10, 112) of a polyline:
+ * keeps the fewest points such that every dropped point lies within `tol` of the kept
+ * polyline, distances measured after dividing x by `sx` and y by `sy` (so a tolerance can be
+ * set in units of each axis's plotted range). End points are kept; a closed path (first point
+ * equal to the last) is split at its point farthest from the start, so it stays closed and
+ * keeps at least three distinct points when it has them.
+ */
+export function simplifyPath(path: Array<[number, number]>, tol: number, sx = 1, sy = 1): Array<[number, number]> {
+  const n = path.length;
+  if (n <= 2 || !(tol > 0)) return path.slice();
+  const u = new Float64Array(n);
+  const v = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    u[i] = path[i][0] / sx;
+    v[i] = path[i][1] / sy;
+  }
+  const keep = new Uint8Array(n);
+  keep[0] = keep[n - 1] = 1;
+  const tol2 = tol * tol;
+  const stack: number[] = [];
+  const closed = u[0] === u[n - 1] && v[0] === v[n - 1];
+  if (closed) {
+    let far = 0;
+    let best = -1;
+    for (let i = 1; i < n - 1; i++) {
+      const d = (u[i] - u[0]) ** 2 + (v[i] - v[0]) ** 2;
+      if (d > best) {
+        best = d;
+        far = i;
+      }
+    }
+    keep[far] = 1;
+    stack.push(0, far, far, n - 1);
+  } else stack.push(0, n - 1);
+  while (stack.length) {
+    const b = stack.pop() as number;
+    const a = stack.pop() as number;
+    if (b - a < 2) continue;
+    const ax = u[a];
+    const ay = v[a];
+    const ex = u[b] - ax;
+    const ey = v[b] - ay;
+    const len2 = ex * ex + ey * ey;
+    let worst = -1;
+    let worstD = -1;
+    for (let i = a + 1; i < b; i++) {
+      // squared distance from point i to the segment a-b
+      const px = u[i] - ax;
+      const py = v[i] - ay;
+      let t = len2 > 0 ? (px * ex + py * ey) / len2 : 0;
+      t = t < 0 ? 0 : t > 1 ? 1 : t;
+      const qx = px - t * ex;
+      const qy = py - t * ey;
+      const d = qx * qx + qy * qy;
+      if (d > worstD) {
+        worstD = d;
+        worst = i;
+      }
+    }
+    if (worstD > tol2) {
+      keep[worst] = 1;
+      stack.push(a, worst, worst, b);
+    }
+  }
+  const out: Array<[number, number]> = [];
+  for (let i = 0; i < n; i++) if (keep[i]) out.push(path[i]);
+  if (closed && out.length === 3) {
+    // a closed triangle-less loop (start, far, start): keep the farthest point on the other side too
+    let other = -1;
+    let best = -1;
+    const far = out[1];
+    const fi = path.indexOf(far);
+    for (let i = 1; i < n - 1; i++) {
+      if (i === fi) continue;
+      const px = u[i] - u[0];
+      const py = v[i] - v[0];
+      const ex = u[fi] - u[0];
+      const ey = v[fi] - v[0];
+      const d = Math.abs(px * ey - py * ex);
+      if (d > best) {
+        best = d;
+        other = i;
+      }
+    }
+    if (other > 0) {
+      out.length = 0;
+      for (let i = 0; i < n; i++) if (i === 0 || i === fi || i === other || i === n - 1) out.push(path[i]);
+    }
+  }
+  return out;
 }

@@ -414,7 +414,11 @@ export function summarise(x: Float64Array, w: Float64Array): ParamSummary {
     const size = Math.max(x.length, workspace.x.length * 2);
     workspace = { x: new Float64Array(size), w: new Float64Array(size), n: 0, total: 0 };
   }
-  const s = sortDraws(x, w, workspace);
+  return summariseSorted(sortDraws(x, w, workspace));
+}
+
+/** `summarise` of draws already sorted by `sortDraws` (so that one sort can serve several uses). */
+export function summariseSorted(s: SortedDraws): ParamSummary {
   const n = s.n;
   const sx = s.x;
   const sw = s.w;
