@@ -176,7 +176,7 @@ export async function main(argv: string[]): Promise<number> {
         target: n === big ? 'completes on this machine' : '',
         status: !b ? 'failed' : n === big ? 'met' : 'info',
         note: b
-          ? `${b.mode} object pages; stages (s): ${Object.entries(b.stages as Record<string, number>).map(([k, v]) => `${k} ${v.toFixed(0)}`).join(', ')}; site ${f(b.siteBytes / 2 ** 30, 2)} GB in ${b.files} files (downloads ${f(b.downloadBytes / 2 ** 30, 2)} GB)${b.objectBytesGz != null ? `; per object in the viewer shards ${f(b.objectBytesGz / 1024, 1)} KB gzipped (${f(b.objectBytesRaw / 1024, 0)} KB raw)` : ''}`
+          ? `${b.mode} object pages; stages (s): ${Object.entries(b.stages as Record<string, number>).map(([k, v]) => `${k} ${v.toFixed(0)}`).join(', ')}; site ${f(b.siteBytes / 2 ** 30, 2)} GB in ${b.files} files (downloads ${f(b.downloadBytes / 2 ** 30, 2)} GB)${b.objectBytesGz != null ? (b.mode === 'viewer' ? `; per object in the viewer shards ${f(b.objectBytesGz / 1024, 1)} KB gzipped (${f(b.objectBytesRaw / 1024, 0)} KB raw)` : `; object pages (every hundredth, figures inline) ${f(b.objectBytesGz / 1024, 1)} KB gzipped on average, max ${f(b.objectBytesMaxGz / 1024, 1)} KB (${f(b.objectBytesRaw / 1024, 0)} KB raw)`) : ''}`
           : undefined,
       });
     }
