@@ -4,7 +4,8 @@
  * per-object draws and photometry, and SHA256SUMS over all of it.
  */
 import { createHash } from 'node:crypto';
-import { mkdir, readdir, readFile, stat, writeFile } from 'node:fs/promises';
+import { createReadStream } from 'node:fs';
+import { mkdir, readdir, stat, writeFile } from 'node:fs/promises';
 import { join, relative } from 'node:path';
 import { gzipSync } from 'node:zlib';
 import type { Bundle } from '../bundle/load.ts';
@@ -31,7 +32,10 @@ export const FORMAT_NOTES: Record<string, { format: string; notes: string }> = {
 };
 
 export async function sha256File(path: string): Promise<string> {
-  return createHash('sha256').update(await readFile(path)).digest('hex');
+  // streamed: a download can be larger than one buffer may be (readFile refuses files over 2 GiB)
+  const h = createHash('sha256');
+  for await (const chunk of createReadStream(path, { highWaterMark: 1 << 20 })) h.update(chunk as Buffer);
+  return h.digest('hex');
 }
 
 /** Per-object files live in downloads/objects/<slug>/ */
