@@ -136,7 +136,7 @@ async function deconvolved(n: string) {
   return { seconds: now() - t0, objects: N, nWalkers: 16, nSteps, b: fit.b.median, s: fit.s.median };
 }
 
-async function hierarchical(n: string, draws: string) {
+async function hierarchical(n: string, draws: string, precision = 'single') {
   const { fitHierarchical } = await import('../../src/lib/core/relations/hierarchical.ts');
   const { stepsFor } = await import('../../src/lib/pipeline/population.ts');
   const N = Number(n), D = Number(draws);
@@ -156,8 +156,8 @@ async function hierarchical(n: string, draws: string) {
   }
   const nSteps = stepsFor(N * D * 16, 3e8, 400, 1500);
   const t0 = now();
-  const fit = fitHierarchical({ x, y, w, logPrior, offsets }, { pivot: 10, seed: 5, maxDraws: D, nWalkers: 16, nSteps });
-  return { seconds: now() - t0, objects: N, draws: D, nWalkers: 16, nSteps, b: fit.b.median, s: fit.s.median };
+  const fit = fitHierarchical({ x, y, w, logPrior, offsets }, { pivot: 10, seed: 5, maxDraws: D, nWalkers: 16, nSteps, precision: precision as 'single' | 'double' });
+  return { seconds: now() - t0, objects: N, draws: D, nWalkers: 16, nSteps, precision: fit.precision, b: fit.b.median, s: fit.s.median };
 }
 
 /** DuckDB over the same Parquet file: weighted mean and standard deviation of every parameter per object. */
@@ -303,7 +303,7 @@ export async function runTask(name: string, args: string[]): Promise<Record<stri
     case 'summarise': return summariseTask(args[0], args[1]);
     case 'kernel': return kernel(args[0], args[1]);
     case 'deconvolved': return deconvolved(args[0]);
-    case 'hierarchical': return hierarchical(args[0], args[1]);
+    case 'hierarchical': return hierarchical(args[0], args[1], args[2]);
     case 'duckdb': return duckdb(args[0]);
     case 'pipeline': return pipeline(args[0], args[1]);
     case 'build': return build(args[0]);

@@ -1,7 +1,9 @@
 /**
  * The population stage as it was before per-draw redshift-bin membership (a frozen copy of
  * population.ts and population-methods.ts), kept as the reference the new implementation must
- * reproduce exactly when no parameter has the redshift role.
+ * reproduce exactly when no parameter has the redshift role. Later changes that have nothing to
+ * do with bin membership are copied in (the hierarchical fit's likelihood precision, in its
+ * diagnostics and method note), so the comparison stays about membership alone.
  */
 import type { ReleaseConfig, RelationConfig } from '../../src/lib/bundle/schema.ts';
 import type { ObjectsData } from '../../src/lib/bundle/load.ts';
@@ -278,7 +280,7 @@ function fitRelation(
     'Naive: ordinary least squares on posterior medians, shown so readers can see the bias that ignoring the posterior widths and correlations brings.',
   );
   if (rel.methods.includes('hierarchical'))
-    methodNotes.push('Hierarchical: the draws of each galaxy are reweighted by the population model over the interim prior of the fit (Hogg, Myers and Bovy 2010), with a Gaussian model of the x distribution fitted jointly (in the spirit of Kelly 2007).');
+    methodNotes.push('Hierarchical: the draws of each galaxy are reweighted by the population model over the interim prior of the fit (Hogg, Myers and Bovy 2010), with a Gaussian model of the x distribution fitted jointly (in the spirit of Kelly 2007). While sampling, each galaxy\'s sum over its draws is computed in single precision (every term to about 1e-7 of itself, far below the sampling noise); the mode search that starts the sampler uses double precision.');
   if (mixtureFits)
     methodNotes.push('Mixture: every galaxy above the completeness limit, star-forming or not, enters a two-component model (the sequence plus a broad component, in the spirit of the outlier mixture of Hogg, Bovy and Lang 2010), so no hard sSFR cut truncates the sequence; each galaxy gets its probability of belonging to the sequence (catalogue column p_sequence).');
   if (rel.methods.includes('running-median'))
@@ -406,6 +408,7 @@ export function hierarchicalIfAvailable(
       objectsWithFewEffectiveDraws: small,
       drawsPerObject: m,
       interimPrior: pop.hasLogPrior ? 'log_prior column' : 'declared priors',
+      likelihoodPrecision: fit.precision === 'single' ? 'single while sampling, double for the mode search' : 'double',
       selectionXMin: xMin ?? 'none',
       xModelMu: fit.xModel.mu.median,
       xModelTau: fit.xModel.tau.median,

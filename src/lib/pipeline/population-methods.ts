@@ -91,6 +91,7 @@ export function hierarchicalIfAvailable(
       objectsWithFewEffectiveDraws: small,
       drawsPerObject: m,
       interimPrior: pop.hasLogPrior ? 'log_prior column' : 'declared priors',
+      likelihoodPrecision: fit.precision === 'single' ? 'single while sampling, double for the mode search' : 'double',
       selectionXMin: xMin ?? 'none',
       ...(drawBin ? { binMembership: 'per draw' } : {}),
       xModelMu: fit.xModel.mu.median,

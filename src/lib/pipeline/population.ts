@@ -525,7 +525,7 @@ function fitRelation(
     'Naive: ordinary least squares on posterior medians, shown so readers can see the bias that ignoring the posterior widths and correlations brings.',
   );
   if (rel.methods.includes('hierarchical'))
-    methodNotes.push('Hierarchical: the draws of each galaxy are reweighted by the population model over the interim prior of the fit (Hogg, Myers and Bovy 2010), with a Gaussian model of the x distribution fitted jointly (in the spirit of Kelly 2007).');
+    methodNotes.push('Hierarchical: the draws of each galaxy are reweighted by the population model over the interim prior of the fit (Hogg, Myers and Bovy 2010), with a Gaussian model of the x distribution fitted jointly (in the spirit of Kelly 2007). While sampling, each galaxy\'s sum over its draws is computed in single precision (every term to about 1e-7 of itself, far below the sampling noise); the mode search that starts the sampler uses double precision.');
   if (mixtureFits)
     methodNotes.push('Mixture: every galaxy above the completeness limit, star-forming or not, enters a two-component model (the sequence plus a broad component, in the spirit of the outlier mixture of Hogg, Bovy and Lang 2010), so no hard sSFR cut truncates the sequence; each galaxy gets its probability of belonging to the sequence (catalogue column p_sequence).');
   if (rel.methods.includes('running-median'))

@@ -64,6 +64,21 @@ describe('sampleEnsemble on a correlated 3-D Gaussian', () => {
     expect(run.acceptance).toBeLessThan(0.8);
   });
 
+  it('gives the same chain when each half of the ensemble is evaluated as one batch', () => {
+    let batches = 0;
+    const batched = sampleEnsemble(gaussLogProb, init, {
+      nWalkers, dim: 3, nSteps: 50, seed: 5,
+      logProbBatch: (thetas, m, out) => {
+        batches++;
+        expect(m).toBe(nWalkers / 2);
+        for (let k = 0; k < m; k++) out[k] = gaussLogProb(thetas.subarray(3 * k, 3 * k + 3));
+      },
+    });
+    expect(batches).toBe(2 * 50);
+    expect(Array.from(batched.chain)).toEqual(Array.from(run.chain.subarray(0, 50 * nWalkers * 3)));
+    expect(Array.from(batched.logProb)).toEqual(Array.from(run.logProb.subarray(0, 50 * nWalkers)));
+  });
+
   it('recovers the mean within 4 Monte Carlo standard errors (analytic mean)', () => {
     for (let d = 0; d < 3; d++) {
       const x = parameterDraws(run.chain, nSteps, nWalkers, 3, burn, d);

@@ -17,7 +17,9 @@ const golden = JSON.parse(readFileSync(new URL('./fixtures/unweighted-golden.jso
 
 describe('fits without object weights', () => {
   it('reproduce the outputs computed before weights were added, to the last bit', () => {
-    // the fixture was written by `unweightedOutputs` with the code as it was before this change
+    // the fixture was written by `unweightedOutputs` with the code as it was before weights were added, and
+    // written again when the ensemble sampler began drawing each half's proposals before evaluating them
+    // together (a new order of its random numbers, so new chains; the weights were not touched)
     expect(JSON.parse(JSON.stringify(unweightedOutputs()))).toEqual(golden);
   });
 });

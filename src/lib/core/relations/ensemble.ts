@@ -21,6 +21,12 @@ export interface EnsembleOptions {
    * that `logProb` writes into its second argument; kept for accepted positions.
    */
   blobDim?: number;
+  /**
+   * Optional: evaluates m positions at once (thetas[k dim + d], k < m) into out[k], with their
+   * blobs at blobs[k blobDim ..]; must give what m calls of `logProb` give. The m proposals of
+   * one half of the ensemble are independent of each other, so they are evaluated together.
+   */
+  logProbBatch?: (thetas: Float64Array, m: number, out: Float64Array, blobs: Float64Array) => void;
 }
 
 export interface EnsembleResult {
@@ -43,7 +49,9 @@ function fail(message: string, expected?: string, got?: string): never {
  * stretch move of Goodman & Weare (2010, eq. 7): walker X_k moves to Y = X_j + z (X_k - X_j),
  * X_j a random walker of the complementary half, z = ((a - 1) u + 1)^2 / a drawn from
  * g(z) ∝ 1/sqrt(z) on [1/a, a], accepted with probability min(1, z^(dim-1) p(Y) / p(X_k))
- * (Foreman-Mackey et al. 2013, Algorithm 3). `init` holds nWalkers x dim starting positions,
+ * (Foreman-Mackey et al. 2013, Algorithm 3). Each half's proposals are drawn first (partner and
+ * z per walker), evaluated together (`logProbBatch` when given), then accepted or rejected in
+ * walker order, one uniform draw each. `init` holds nWalkers x dim starting positions,
  * which must have finite log-probability and should not lie in a lower-dimensional subspace.
  * `logProb` receives scratch buffers it must not keep; returning NaN is an error.
  */
@@ -94,27 +102,50 @@ export function sampleEnsemble(
   const sqrtA = Math.sqrt(a);
   const invSqrtA = 1 / sqrtA;
   let accepted = 0;
+  const props = new Float64Array((nWalkers - half) * dim);
+  const zs = new Float64Array(nWalkers - half);
+  const lpNew = new Float64Array(nWalkers - half);
+  const blobNew = new Float64Array((nWalkers - half) * blobDim);
+  const evalBatch =
+    opts.logProbBatch ??
+    ((thetas: Float64Array, m: number, out: Float64Array, blobs: Float64Array): void => {
+      for (let k = 0; k < m; k++) {
+        theta.set(thetas.subarray(k * dim, (k + 1) * dim));
+        out[k] = logProb(theta, blob);
+        if (blobDim) blobs.set(blob, k * blobDim);
+      }
+    });
   for (let step = 0; step < nSteps; step++) {
     for (let h = 0; h < 2; h++) {
       const start = h === 0 ? 0 : half;
       const end = h === 0 ? half : nWalkers;
       const otherStart = h === 0 ? half : 0;
       const otherN = h === 0 ? nWalkers - half : half;
+      const m = end - start;
       for (let k = start; k < end; k++) {
         const j = otherStart + rng.int(otherN);
         // z = ((a-1)u + 1)^2 / a  =  (u (sqrt a - 1/sqrt a) + 1/sqrt a)^2
         const r = rng.next() * (sqrtA - invSqrtA) + invSqrtA;
         const z = r * r;
+        zs[k - start] = z;
         for (let d = 0; d < dim; d++) {
           const xj = pos[j * dim + d];
-          theta[d] = xj + z * (pos[k * dim + d] - xj);
+          props[(k - start) * dim + d] = xj + z * (pos[k * dim + d] - xj);
         }
-        const lpNew = evaluate();
-        const logRatio = (dim - 1) * Math.log(z) + lpNew - lp[k];
-        if (lpNew > -Infinity && Math.log(rng.next()) < logRatio) {
-          for (let d = 0; d < dim; d++) pos[k * dim + d] = theta[d];
-          lp[k] = lpNew;
-          if (blobDim) curBlob.set(blob, k * blobDim);
+      }
+      evalBatch(props, m, lpNew, blobNew);
+      for (let k = start; k < end; k++) {
+        const q = k - start;
+        const v = lpNew[q];
+        if (Number.isNaN(v)) {
+          fail('ensemble sampler: log-probability is NaN', 'a number or -Infinity', `NaN at (${Array.from(props.subarray(q * dim, (q + 1) * dim)).join(', ')})`);
+        }
+        const logRatio = (dim - 1) * Math.log(zs[q]) + v - lp[k];
+        const u = rng.next();
+        if (v > -Infinity && Math.log(u) < logRatio) {
+          for (let d = 0; d < dim; d++) pos[k * dim + d] = props[q * dim + d];
+          lp[k] = v;
+          if (blobDim) curBlob.set(blobNew.subarray(q * blobDim, (q + 1) * blobDim), k * blobDim);
           accepted++;
         }
       }

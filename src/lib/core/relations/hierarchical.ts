@@ -16,7 +16,7 @@ import { MAX_BAND_DRAWS, type Estimate, type RelationFit } from './linear.ts';
 import { nelderMead } from './optimise.ts';
 import { startAtMode } from './start.ts';
 import { convergenceWarnings } from './warnings.ts';
-import { createLikelihoodSum, sharedF32, sharedF64, sharedI32, threadsFor, type CompactTerms, type LikelihoodSum } from './hierarchical-sum.ts';
+import { createLikelihoodSum, paddedDraws, threadsFor, type CompactTerms, type LikelihoodSum, type Precision } from './hierarchical-sum.ts';
 
 export interface HierarchicalData extends ObjectDraws {
   /** Natural log of the interim prior density the fitter used, at each draw. */
@@ -54,8 +54,16 @@ export interface HierarchicalOptions {
    */
   maxDraws?: number;
   /**
+   * Precision of the likelihood terms while sampling (see `Precision` in hierarchical-sum.ts):
+   * 'single' (default) or 'double'. The mode search, the Laplace approximation that starts the
+   * walkers, `fitHierarchicalLaplace` and `hierarchicalLogPosterior` (unless told otherwise)
+   * use 'double'. In 'single' each object's ln L_i is within about 1e-7 x (1 + |its largest
+   * exponent|) of the double-precision value, far below the sampling noise of the fit.
+   */
+  precision?: Precision;
+  /**
    * Threads that evaluate the likelihood (this one plus worker threads sharing the draws through
-   * SharedArrayBuffer). Default: one per core (os.availableParallelism()) when there are at
+   * one shared memory). Default: one per core (os.availableParallelism()) when there are at
    * least 2^18 draws, else 1; `hierarchicalLogPosterior` defaults to 1. The result does not
    * depend on it: objects are summed in fixed chunks added in a fixed order.
    */
@@ -69,6 +77,8 @@ export interface HierarchicalFit extends RelationFit {
   xModel: { mu: Estimate; tau: Estimate };
   /** Draws per object used by the likelihood after sub-sampling and removal of draws below the cut. */
   drawsUsed: { maxDraws: number; objectsSubsampled: number; total: number };
+  /** Precision of the likelihood terms while sampling (the mode search is always in double). */
+  precision: Precision;
 }
 
 const LOG_2PI = Math.log(2 * Math.PI);
@@ -86,12 +96,12 @@ function needPrior(detail: string, row?: number): never {
 
 /**
  * The likelihood's arrays (`CompactTerms`: per draw (x - xc, y - yc, C - Cmax) in float32 with
- * C = ln w - ln pi, per object the float64 centre and Cmax) plus bookkeeping. Float32 is enough
- * for the per-draw values because they are stored relative to each object's own centre and
- * maximum: the rounding (relative 2^-24 = 6e-8) is 6e-8 of the object's own spread of draws in
- * x and y, and at most about 6e-8 |C - Cmax| in a log weight (1e-6 for a draw e^-16 below the
- * best one), a fixed perturbation of the draws far below their spread, not noise in theta; all
- * sums are in float64.
+ * C = ln w - ln pi, per object the float64 centre and Cmax, each object padded to DRAW_ALIGN
+ * draws) plus bookkeeping. Float32 is enough for the stored per-draw values because they are
+ * relative to each object's own centre and maximum: the rounding (relative 2^-24 = 6e-8) is
+ * 6e-8 of the object's own spread of draws in x and y, and at most about 6e-8 |C - Cmax| in a
+ * log weight (1e-6 for a draw e^-16 below the best one), a fixed perturbation of the draws far
+ * below their spread, not noise in theta.
  */
 interface Terms extends CompactTerms {
   objectsSubsampled: number;
@@ -103,6 +113,7 @@ function buildTerms(d: HierarchicalData, n: number, xMin: number, maxDraws: numb
   const rng = makeRng(deriveSeed(seed, 'hierarchical', 'subsample'));
   // first pass: draws kept per object (all draws above the cut with w > 0, or maxDraws of them)
   let total = 0;
+  let padded = 0;
   let nKept = 0;
   for (let i = 0; i < n; i++) {
     let sw = 0;
@@ -116,15 +127,15 @@ function buildTerms(d: HierarchicalData, n: number, xMin: number, maxDraws: numb
     if (!(sw > 0)) continue;
     nKept++;
     total += Math.min(count, maxDraws);
+    padded += paddedDraws(Math.min(count, maxDraws));
   }
-  const t = sharedF32(3 * total);
-  const offsets = sharedI32(nKept + 1);
-  const cmax = sharedF64(nKept), xc = sharedF64(nKept), yc = sharedF64(nKept), dz = sharedF64(nKept);
-  const f = weight ? sharedF64(nKept) : undefined;
+  const dx = new Float32Array(padded), dy = new Float32Array(padded), cc = new Float32Array(padded).fill(-Infinity);
+  const offsets = new Int32Array(nKept + 1);
+  const cmax = new Float64Array(nKept), xc = new Float64Array(nKept), yc = new Float64Array(nKept), dz = new Float64Array(nKept);
+  const f = weight ? new Float64Array(nKept) : undefined;
   let objectsSubsampled = 0;
   let dropped = 0;
   let kept = 0;
-  let o = 0;
   const keepX: number[] = [];
   const keepY: number[] = [];
   const keepC: number[] = [];
@@ -183,10 +194,11 @@ function buildTerms(d: HierarchicalData, n: number, xMin: number, maxDraws: numb
     }
     mx /= K;
     my /= K;
-    for (let k = 0; k < K; k++, o += 3) {
-      t[o] = keepX[k] - mx;
-      t[o + 1] = keepY[k] - my;
-      t[o + 2] = keepC[k] - mc;
+    const o = offsets[kept];
+    for (let k = 0; k < K; k++) {
+      dx[o + k] = keepX[k] - mx;
+      dy[o + k] = keepY[k] - my;
+      cc[o + k] = keepC[k] - mc;
     }
     xc[kept] = mx;
     yc[kept] = my;
@@ -194,9 +206,9 @@ function buildTerms(d: HierarchicalData, n: number, xMin: number, maxDraws: numb
     dz[kept] = d.dz ? d.dz[i] : 0;
     if (f) f[kept] = weight![i];
     kept++;
-    offsets[kept] = offsets[kept - 1] + K;
+    offsets[kept] = o + paddedDraws(K);
   }
-  return { t, offsets, cmax, xc, yc, dz, ...(f ? { f } : {}), n: kept, objectsSubsampled, dropped, total };
+  return { dx, dy, c: cc, offsets, cmax, xc, yc, dz, ...(f ? { f } : {}), n: kept, objectsSubsampled, dropped, total };
 }
 
 /** sum_i f_i (n without weights): the weight of the per-object normalisation terms. */
@@ -222,24 +234,64 @@ function weightSum(terms: CompactTerms): number {
  * Priors: flat in a, c, mu; flat in the angle arctan b, p(b) ∝ (1 + b^2)^(-3/2) (Hogg, Bovy &
  * Lang 2010, sect. 3); flat in s > 0 and tau > 0 (hence the + ln s + ln tau Jacobians).
  */
-function makeLogPosterior(terms: CompactTerms, lik: LikelihoodSum, pivot: number, xMin: number, hasC: boolean): (theta: Float64Array) => number {
+interface LogPosterior {
+  /** At one theta. */
+  one: (theta: Float64Array) => number;
+  /** At m thetas (thetas[k dim ..]) into out[k]: bit for bit what `one` gives for each. */
+  batch: (thetas: Float64Array, m: number, out: Float64Array) => void;
+}
+
+function makeLogPosterior(terms: CompactTerms, lik: LikelihoodSum, pivot: number, xMin: number, hasC: boolean, precision: Precision): LogPosterior {
   const hasCut = xMin > -Infinity;
   const nEff = weightSum(terms);
-  return (theta) => {
-    const a = theta[0], b = theta[1], lnS = theta[2], mu = theta[3], lnTau = theta[4];
-    const c = hasC ? theta[5] : 0;
+  const dim = hasC ? 6 : 5;
+  /** Writes the likelihood's parameters of theta to P[o .. o + 5]; returns the rest of the log posterior, or -Infinity outside the support. */
+  const prepare = (theta: Float64Array, t0: number, P: Float64Array, o: number): number => {
+    const a = theta[t0], b = theta[t0 + 1], lnS = theta[t0 + 2], mu = theta[t0 + 3], lnTau = theta[t0 + 4];
+    const c = hasC ? theta[t0 + 5] : 0;
     if (!(lnS > -30 && lnS < 30 && lnTau > -30 && lnTau < 30) || !Number.isFinite(a) || !Number.isFinite(b) || !Number.isFinite(mu) || !Number.isFinite(c)) return -Infinity;
-    const is2 = Math.exp(-2 * lnS);
-    const it2 = Math.exp(-2 * lnTau);
-    let total = lik.sum(a - b * pivot, b, 0.5 * is2, 0.5 * it2, mu, c);
     let logSel = 0;
     if (hasCut) {
       const p = normalCdf((mu - xMin) * Math.exp(-lnTau));
       if (!(p > 0)) return -Infinity;
       logSel = Math.log(p);
     }
-    total += nEff * (-LOG_2PI - lnS - lnTau - logSel);
-    return total - 1.5 * Math.log1p(b * b) + lnS + lnTau;
+    P[o] = a - b * pivot;
+    P[o + 1] = b;
+    P[o + 2] = 0.5 * Math.exp(-2 * lnS);
+    P[o + 3] = 0.5 * Math.exp(-2 * lnTau);
+    P[o + 4] = mu;
+    P[o + 5] = c;
+    return nEff * (-LOG_2PI - lnS - lnTau - logSel) - 1.5 * Math.log1p(b * b) + lnS + lnTau;
+  };
+  const P1 = new Float64Array(6);
+  let Pm = new Float64Array(0), rest = new Float64Array(0), sums = new Float64Array(0);
+  let index = new Int32Array(0);
+  return {
+    one(theta) {
+      const r = prepare(theta, 0, P1, 0);
+      if (r === -Infinity) return r;
+      return lik.sum(P1[0], P1[1], P1[2], P1[3], P1[4], P1[5], precision) + r;
+    },
+    batch(thetas, m, out) {
+      if (Pm.length < 6 * m) {
+        Pm = new Float64Array(6 * m);
+        rest = new Float64Array(m);
+        sums = new Float64Array(m);
+        index = new Int32Array(m);
+      }
+      let k = 0;
+      for (let q = 0; q < m; q++) {
+        const r = prepare(thetas, q * dim, Pm, 6 * k);
+        out[q] = -Infinity;
+        if (r === -Infinity) continue;
+        rest[k] = r;
+        index[k++] = q;
+      }
+      if (k === 0) return;
+      lik.sumBatch(Pm, k, sums, precision);
+      for (let q = 0; q < k; q++) out[index[q]] = sums[q] + rest[q];
+    },
   };
 }
 
@@ -247,7 +299,11 @@ interface Setup {
   terms: Terms;
   /** 5, or 6 with the covariate (c last). */
   dim: number;
+  /** The log posterior in double precision (mode search, Laplace approximation). */
   logPost: (theta: Float64Array) => number;
+  /** The log posterior at the sampling precision, one theta or a batch. */
+  sampling: LogPosterior;
+  precision: Precision;
   /** Releases the worker threads of the likelihood. */
   close: () => void;
   whenClosed: () => Promise<void>;
@@ -297,7 +353,7 @@ function selectObjects(d: HierarchicalData, used: Uint8Array): HierarchicalData 
   return { x, y, w, logPrior, offsets, ...(dz ? { dz } : {}) };
 }
 
-function setup(objs: HierarchicalData, opts: HierarchicalOptions, defaultThreads?: number): Setup {
+function setup(objs: HierarchicalData, opts: HierarchicalOptions, defaultThreads?: number, defaultPrecision: Precision = 'single'): Setup {
   if (!objs.logPrior) needPrior('no log_prior column was given');
   const n0 = validateDraws(objs, 'hierarchical fit');
   if (objs.logPrior.length !== objs.x.length) needPrior(`log_prior has ${objs.logPrior.length} values for ${objs.x.length} draws`);
@@ -377,11 +433,18 @@ function setup(objs: HierarchicalData, opts: HierarchicalOptions, defaultThreads
     h.push(0.1 * seC);
   }
   const lik = createLikelihoodSum(terms, threadsFor(opts.threads ?? defaultThreads, terms));
-  const logPost = makeLogPosterior(terms, lik, pivot, xMin, dz !== undefined);
+  const precision = opts.precision ?? defaultPrecision;
+  if (precision !== 'single' && precision !== 'double') {
+    throw new PosterityError(problem({ message: 'hierarchical fit: precision must be single or double', expected: "'single' or 'double'", got: String(precision) }));
+  }
+  const logPost = makeLogPosterior(terms, lik, pivot, xMin, dz !== undefined, 'double').one;
+  const sampling = precision === 'double' ? { one: logPost, batch: makeLogPosterior(terms, lik, pivot, xMin, dz !== undefined, 'double').batch } : makeLogPosterior(terms, lik, pivot, xMin, dz !== undefined, precision);
   return {
     terms,
     dim: x0.length,
     logPost,
+    sampling,
+    precision,
     close: () => lik.close(),
     whenClosed: () => lik.whenClosed(),
     threads: lik.threads,
@@ -402,14 +465,22 @@ function setup(objs: HierarchicalData, opts: HierarchicalOptions, defaultThreads
  * coordinates (a, b, ln s, mu, ln tau[, c]) after validation, sub-sampling, the selection cut
  * and the object weights of `opts`; for tests and checks. `dim` is 6 when the data have dz.
  * One thread unless `opts.threads` says otherwise; with more, call `close()` when done (the
- * workers never keep the process alive, but hold the draws until closed).
+ * workers never keep the process alive, but hold the draws until closed). In double precision
+ * unless `opts.precision` says otherwise; `logPostBatch` evaluates several thetas in one pass.
  */
 export function hierarchicalLogPosterior(
   objs: HierarchicalData,
   opts: HierarchicalOptions,
-): { logPost: (theta: Float64Array) => number; dim: number; threads: number; close: () => void; whenClosed: () => Promise<void> } {
-  const st = setup(objs, opts, 1);
-  return { logPost: st.logPost, dim: st.dim, threads: st.threads, close: st.close, whenClosed: st.whenClosed };
+): {
+  logPost: (theta: Float64Array) => number;
+  logPostBatch: (thetas: Float64Array, m: number, out: Float64Array) => void;
+  dim: number;
+  threads: number;
+  close: () => void;
+  whenClosed: () => Promise<void>;
+} {
+  const st = setup(objs, opts, 1, 'double');
+  return { logPost: st.sampling.one, logPostBatch: st.sampling.batch, dim: st.dim, threads: st.threads, close: st.close, whenClosed: st.whenClosed };
 }
 
 /** Objects above which the mode search starts on an evenly strided subset of about this many. */
@@ -426,14 +497,16 @@ function presolve(st: Setup, threads: number | undefined): { x0: Float64Array; s
   const nSub = Math.ceil(terms.n / stride);
   let total = 0;
   for (let i = 0; i < terms.n; i += stride) total += terms.offsets[i + 1] - terms.offsets[i];
-  const t = sharedF32(3 * total);
-  const offsets = sharedI32(nSub + 1);
-  const cmax = sharedF64(nSub), xc = sharedF64(nSub), yc = sharedF64(nSub), dz = sharedF64(nSub);
-  const f = terms.f ? sharedF64(nSub) : undefined;
+  const dx = new Float32Array(total), dy = new Float32Array(total), c = new Float32Array(total);
+  const offsets = new Int32Array(nSub + 1);
+  const cmax = new Float64Array(nSub), xc = new Float64Array(nSub), yc = new Float64Array(nSub), dz = new Float64Array(nSub);
+  const f = terms.f ? new Float64Array(nSub) : undefined;
   for (let i = 0, r = 0; i < terms.n; i += stride, r++) {
     const lo = terms.offsets[i];
     const hi = terms.offsets[i + 1];
-    t.set(terms.t.subarray(3 * lo, 3 * hi), 3 * offsets[r]);
+    dx.set(terms.dx.subarray(lo, hi), offsets[r]);
+    dy.set(terms.dy.subarray(lo, hi), offsets[r]);
+    c.set(terms.c.subarray(lo, hi), offsets[r]);
     offsets[r + 1] = offsets[r] + (hi - lo);
     cmax[r] = terms.cmax[i];
     xc[r] = terms.xc[i];
@@ -441,10 +514,10 @@ function presolve(st: Setup, threads: number | undefined): { x0: Float64Array; s
     dz[r] = terms.dz[i];
     if (f) f[r] = terms.f![i];
   }
-  const sub: CompactTerms = { t, offsets, cmax, xc, yc, dz, ...(f ? { f } : {}), n: nSub };
+  const sub: CompactTerms = { dx, dy, c, offsets, cmax, xc, yc, dz, ...(f ? { f } : {}), n: nSub };
   const lik = createLikelihoodSum(sub, threadsFor(threads, sub));
   try {
-    const lp = makeLogPosterior(sub, lik, st.pivot, st.xMin, st.dim === 6);
+    const lp = makeLogPosterior(sub, lik, st.pivot, st.xMin, st.dim === 6, 'double').one;
     const min = nelderMead((x) => -lp(x), st.x0, st.step, { maxEval: 600, fTol: 1e-6 });
     // the full-sample posterior is narrower by about sqrt(n / n_sub)
     const shrink = Math.sqrt(nSub / terms.n);
@@ -527,7 +600,8 @@ function sampleHierarchical(objs: HierarchicalData, opts: HierarchicalOptions, s
   const pre = presolve(st, opts.threads);
   const start = startAtMode(logPost, pre.x0, pre.step, st.h, nWalkers, makeRng(deriveSeed(seed, 'hierarchical', 'start')), { maxEval: pre.maxEval });
   const dim = st.dim;
-  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim, nSteps, seed: deriveSeed(seed, 'hierarchical', 'ensemble') });
+  const { sampling } = st;
+  const run = sampleEnsemble(sampling.one, start.init, { nWalkers, dim, nSteps, seed: deriveSeed(seed, 'hierarchical', 'ensemble'), logProbBatch: (t, m, out) => sampling.batch(t, m, out) });
   const m = nSteps * nWalkers;
   const chain = new Float64Array(m * dim);
   for (let i = 0; i < m; i++) {
@@ -579,6 +653,7 @@ function sampleHierarchical(objs: HierarchicalData, opts: HierarchicalOptions, s
     effectiveDraws,
     xModel: { mu, tau },
     drawsUsed: { maxDraws, objectsSubsampled: terms.objectsSubsampled, total: terms.total },
+    precision: st.precision,
   };
 }
 
