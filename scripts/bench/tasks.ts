@@ -157,7 +157,7 @@ async function hierarchical(n: string, draws: string, precision = 'single') {
   const nSteps = stepsFor(N * D * 16, 3e8, 400, 1500);
   const t0 = now();
   const fit = fitHierarchical({ x, y, w, logPrior, offsets }, { pivot: 10, seed: 5, maxDraws: D, nWalkers: 16, nSteps, precision: precision as 'single' | 'double' });
-  return { seconds: now() - t0, objects: N, draws: D, nWalkers: 16, nSteps, precision: fit.precision, b: fit.b.median, s: fit.s.median };
+  return { seconds: now() - t0, objects: N, draws: D, nWalkers: 16, nSteps, precision: fit.precision, b: fit.b.median, s: fit.s.median, maxRhat: Math.max(...fit.diagnostics.rhat!), minEss: Math.min(...fit.diagnostics.ess!) };
 }
 
 /** DuckDB over the same Parquet file: weighted mean and standard deviation of every parameter per object. */

@@ -3,7 +3,8 @@
  * population.ts and population-methods.ts), kept as the reference the new implementation must
  * reproduce exactly when no parameter has the redshift role. Later changes that have nothing to
  * do with bin membership are copied in (the hierarchical fit's likelihood precision, in its
- * diagnostics and method note), so the comparison stays about membership alone.
+ * diagnostics and method note; the samplers' convergence rule, `convergeFrom`), so the
+ * comparison stays about membership alone.
  */
 import type { ReleaseConfig, RelationConfig } from '../../src/lib/bundle/schema.ts';
 import type { ObjectsData } from '../../src/lib/bundle/load.ts';
@@ -21,6 +22,7 @@ import { fitHierarchical } from '../../src/lib/core/relations/hierarchical.ts';
 import { runningMedian } from '../../src/lib/core/relations/running.ts';
 import { referenceRelation } from '../../src/lib/core/relations/reference.ts';
 import { fitMixture } from '../../src/lib/core/relations/mixture.ts';
+import { convergeFrom } from '../../src/lib/pipeline/population.ts';
 import type { DeconvolvedData } from '../../src/lib/core/relations/deconvolved.ts';
 
 export interface PopulationResult {
@@ -236,7 +238,8 @@ function fitRelation(
     const seed = deriveSeed(config.seed, rel.name, b);
     let preferred: RelationFit | null = null;
     if (rel.methods.includes('deconvolved')) {
-      const f = fitDeconvolved(d, { pivot: rel.pivot, seed, nWalkers: 16, nSteps: stepsFor(idx.length * 16, 3e7, 400, 2000) });
+      const nSteps = stepsFor(idx.length * 16, 3e7, 400, 2000);
+      const f = fitDeconvolved(d, { pivot: rel.pivot, seed, nWalkers: 16, nSteps, converge: convergeFrom(nSteps) });
       bin.fits.push(methodFit(f));
       preferred = f;
     }
@@ -391,7 +394,7 @@ export function hierarchicalIfAvailable(
     }
     offsets[s + 1] = o;
   }
-  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets, ...(dz ? { dz } : {}) }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 12, nSteps: stepsFor(o * 12, 2.5e8, 600, 2000), ...(xMin !== undefined ? { selection: { xMin } } : {}) });
+  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets, ...(dz ? { dz } : {}) }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 12, nSteps: stepsFor(o * 12, 2.5e8, 600, 2000), converge: convergeFrom(stepsFor(o * 12, 2.5e8, 600, 2000)), ...(xMin !== undefined ? { selection: { xMin } } : {}) });
   let small = 0;
   for (const e of fit.effectiveDraws) if (e < 5) small++;
   if (small > 0) fit.warnings.push(`${small} of ${nSel} objects have fewer than 5 effective draws carrying the likelihood; their marginal likelihoods are noisy`);
@@ -465,7 +468,8 @@ export function referenceIfAvailable(rel: RelationConfig, config: ReleaseConfig,
 
 /** Two-component mixture (sequence plus a broad component) on every galaxy of the bin, without a population cut. */
 export function mixtureFit(d: DeconvolvedData, pivot: number, seed: number): { fit: MethodFit; membership: Float64Array } {
-  const f = fitMixture(d, { pivot, seed, nWalkers: 16, nSteps: stepsFor(d.x.length * 16, 3e7, 400, 1500) });
+  const mSteps = stepsFor(d.x.length * 16, 3e7, 400, 1500);
+  const f = fitMixture(d, { pivot, seed, nWalkers: 16, nSteps: mSteps, converge: convergeFrom(mSteps) });
   return {
     fit: {
       method: 'mixture',

@@ -2,7 +2,7 @@
  * Adapters from the pipeline's arrays to the relation methods of the core.
  */
 import type { RelationConfig, ReleaseConfig } from '../bundle/schema.ts';
-import { binOf, stepsFor, type PopulationInputs } from './population.ts';
+import { binOf, convergeFrom, stepsFor, type PopulationInputs } from './population.ts';
 import type { PopulationDraws } from './summarise.ts';
 import type { BinFit, MethodFit } from './content.ts';
 import type { RelationFit } from '../core/relations/linear.ts';
@@ -74,7 +74,8 @@ export function hierarchicalIfAvailable(
     }
     offsets[s + 1] = o;
   }
-  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets, ...(dz ? { dz } : {}), ...(drawBin ? { objectWeight: drawBin.weight } : {}) }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 12, nSteps: stepsFor(o * 12, 2.5e8, 600, 2000), ...(xMin !== undefined ? { selection: { xMin } } : {}) });
+  const hSteps = stepsFor(o * 12, 2.5e8, 600, 2000);
+  const fit = fitHierarchical({ x: x.subarray(0, o), y: y.subarray(0, o), w: w.subarray(0, o), logPrior: lp.subarray(0, o), offsets, ...(dz ? { dz } : {}), ...(drawBin ? { objectWeight: drawBin.weight } : {}) }, { pivot: rel.pivot, seed, maxDraws: m, nWalkers: 12, nSteps: hSteps, converge: convergeFrom(hSteps), ...(xMin !== undefined ? { selection: { xMin } } : {}) });
   let small = 0;
   for (const e of fit.effectiveDraws) if (e < 5) small++;
   if (small > 0) fit.warnings.push(`${small} of ${nSel} objects have fewer than 5 effective draws carrying the likelihood; their marginal likelihoods are noisy`);
@@ -156,7 +157,8 @@ export function referenceIfAvailable(rel: RelationConfig, config: ReleaseConfig,
 
 /** Two-component mixture (sequence plus a broad component) on every galaxy of the bin, without a population cut. */
 export function mixtureFit(d: DeconvolvedData, pivot: number, seed: number): { fit: MethodFit; membership: Float64Array } {
-  const f = fitMixture(d, { pivot, seed, nWalkers: 16, nSteps: stepsFor(d.x.length * 16, 3e7, 400, 1500) });
+  const mSteps = stepsFor(d.x.length * 16, 3e7, 400, 1500);
+  const f = fitMixture(d, { pivot, seed, nWalkers: 16, nSteps: mSteps, converge: convergeFrom(mSteps) });
   return {
     fit: {
       method: 'mixture',

@@ -54,6 +54,15 @@ export function stepsFor(termsPerStep: number, budget: number, min: number, max:
   return Math.max(min, Math.min(max, Math.round(budget / Math.max(1, termsPerStep))));
 }
 
+/**
+ * Convergence rule of every relation fit's sampler: starting from `nSteps`, the chain is doubled
+ * while any split R-hat exceeds 1.05, up to four times its first length (the pages warn above
+ * 1.1, the usual threshold; Gelman et al. 2013, Bayesian Data Analysis, sect. 11.4).
+ */
+export function convergeFrom(nSteps: number): { rhat: number; maxSteps: number } {
+  return { rhat: 1.05, maxSteps: 4 * nSteps };
+}
+
 /** Redshift bin of z: [edges[k], edges[k+1]), the last bin closed; -1 outside. */
 export function binOf(z: number, edges: number[]): number {
   if (!(z >= edges[0]) || z > edges[edges.length - 1]) return -1;
@@ -466,7 +475,8 @@ function fitRelation(
     const seed = deriveSeed(config.seed, rel.name, b);
     let preferred: RelationFit | null = null;
     if (rel.methods.includes('deconvolved')) {
-      const f = fitDeconvolved(d, { pivot: rel.pivot, seed, nWalkers: 16, nSteps: stepsFor(idx.length * 16, 3e7, 400, 2000) });
+      const nSteps = stepsFor(idx.length * 16, 3e7, 400, 2000);
+      const f = fitDeconvolved(d, { pivot: rel.pivot, seed, nWalkers: 16, nSteps, converge: convergeFrom(nSteps) });
       bin.fits.push(methodFit(f));
       preferred = f;
     }

@@ -79,6 +79,28 @@ describe('sampleEnsemble on a correlated 3-D Gaussian', () => {
     expect(Array.from(batched.logProb)).toEqual(Array.from(run.logProb.subarray(0, 50 * nWalkers)));
   });
 
+  it('with until, doubles the chain while split R-hat is above the target, continuing the same random stream', () => {
+    // walkers started in a tight ball 5 sd away: short chains have not forgotten the start
+    const far = Float64Array.from(init, (v, i) => MEAN[i % 3] + 5 * SD[i % 3] + 0.01 * (v - MEAN[i % 3]));
+    const short = sampleEnsemble(gaussLogProb, far, { nWalkers, dim: 3, nSteps: 40, seed: 9 });
+    expect(Math.max(...chainDiagnostics(short.chain, 40, nWalkers, 3, 8).rhat)).toBeGreaterThan(1.05);
+    const grown = sampleEnsemble(gaussLogProb, far, { nWalkers, dim: 3, nSteps: 40, seed: 9, until: { rhat: 1.05, maxSteps: 2000 } });
+    expect([80, 160, 320, 640, 1280, 2000]).toContain(grown.nSteps);
+    const burn = Math.floor(grown.nSteps / 5);
+    expect(Math.max(...chainDiagnostics(grown.chain, grown.nSteps, nWalkers, 3, burn).rhat)).toBeLessThanOrEqual(1.05);
+    // the same as asking for that many steps in the first place
+    const plain = sampleEnsemble(gaussLogProb, far, { nWalkers, dim: 3, nSteps: grown.nSteps, seed: 9 });
+    expect(Array.from(grown.chain)).toEqual(Array.from(plain.chain));
+    expect(grown.acceptance).toBe(plain.acceptance);
+    // a converged chain is not extended; the cap is respected
+    const done = sampleEnsemble(gaussLogProb, init, { nWalkers, dim: 3, nSteps: 1000, seed: 5, until: { rhat: 1.2, maxSteps: 4000 } });
+    expect(done.nSteps).toBe(1000);
+    const capped = sampleEnsemble(gaussLogProb, far, { nWalkers, dim: 3, nSteps: 40, seed: 9, until: { rhat: 1.0001, maxSteps: 100 } });
+    expect(capped.nSteps).toBe(100);
+    expect(capped.chain.length).toBe(100 * nWalkers * 3);
+    expect(() => sampleEnsemble(gaussLogProb, init, { nWalkers, dim: 3, nSteps: 50, seed: 5, until: { rhat: 1.05, maxSteps: 10 } })).toThrow(/invalid until/);
+  });
+
   it('recovers the mean within 4 Monte Carlo standard errors (analytic mean)', () => {
     for (let d = 0; d < 3; d++) {
       const x = parameterDraws(run.chain, nSteps, nWalkers, 3, burn, d);

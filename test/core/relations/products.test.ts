@@ -107,4 +107,25 @@ describe('fitMixture', () => {
     expect(mSeq / onSeq.filter(Boolean).length).toBeGreaterThan(0.8);
     expect(mOff / onSeq.filter((v) => !v).length).toBeLessThan(0.45);
   });
+
+  it('keeps a proper posterior when the broad component is nearly empty: bounded, and the chains converge', () => {
+    // a sequence alone (f near 1): the data say little about the broad component, whose mean and
+    // width then follow their priors, bounded by the range of y (without the bounds they drift off)
+    const rng = makeRng(21);
+    const n = 280;
+    const x = new Float64Array(n), y = new Float64Array(n), cxx = new Float64Array(n).fill(0.01), cyy = new Float64Array(n).fill(0.02), cxy = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      x[i] = 9 + 2 * rng.next();
+      y[i] = 0.5 + 0.8 * (x[i] - 10) + 0.25 * rng.normal() + 0.14 * rng.normal();
+    }
+    const yLo = Math.min(...y), yHi = Math.max(...y);
+    const f = fitMixture({ x, y, cxx, cyy, cxy }, { pivot: 10, seed: 3, nSteps: 1500, converge: { rhat: 1.05, maxSteps: 6000 } });
+    expect(f.sequenceFraction.median).toBeGreaterThan(0.85);
+    expect(f.broad.mean.lo).toBeGreaterThanOrEqual(yLo);
+    expect(f.broad.mean.hi).toBeLessThanOrEqual(yHi);
+    expect(f.broad.sd.hi).toBeLessThanOrEqual(yHi - yLo);
+    expect(Math.max(...f.diagnostics.rhat!)).toBeLessThan(1.1);
+    expect(f.diagnostics.nSteps).toBeLessThanOrEqual(6000);
+    for (const [est, t] of [[f.a, 0.5], [f.b, 0.8]] as const) expect(Math.abs(est.median - t)).toBeLessThan(4 * 0.5 * (est.hi - est.lo));
+  });
 });

@@ -19,7 +19,9 @@ describe('fits without object weights', () => {
   it('reproduce the outputs computed before weights were added, to the last bit', () => {
     // the fixture was written by `unweightedOutputs` with the code as it was before weights were added, and
     // written again when the ensemble sampler began drawing each half's proposals before evaluating them
-    // together (a new order of its random numbers, so new chains; the weights were not touched)
+    // together (a new order of its random numbers, so new chains; the weights were not touched), and the
+    // mixture parts again when the broad component got bounded priors (its mean within the range of y, its
+    // width below that range)
     expect(JSON.parse(JSON.stringify(unweightedOutputs()))).toEqual(golden);
   });
 });

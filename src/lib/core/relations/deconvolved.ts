@@ -43,6 +43,11 @@ export interface DeconvolvedOptions {
   nWalkers?: number;
   /** Default 600; the first fifth is discarded as burn-in. */
   nSteps?: number;
+  /**
+   * Optional: while any split R-hat exceeds `rhat`, the chain is doubled, up to maxSteps steps
+   * (the sampler's `until`); the fit reports the steps it ran in its diagnostics.
+   */
+  converge?: { rhat: number; maxSteps: number };
 }
 
 function validate(d: DeconvolvedData): number {
@@ -438,8 +443,7 @@ export function fitDeconvolved(d: DeconvolvedData, opts: DeconvolvedOptions): Re
   if (d.dz) return fitDeconvolvedWithCovariate(d, d.dz, n, opts);
   const { pivot, seed } = opts;
   const nWalkers = opts.nWalkers ?? 12;
-  const nSteps = opts.nSteps ?? 600;
-  const burn = Math.floor(nSteps / 5);
+  const nSteps0 = opts.nSteps ?? 600;
   const logPost = marginalPosterior(d, pivot);
   const scratch = new Float64Array(2);
   const lp = (t: Float64Array): number => logPost(t, scratch);
@@ -462,7 +466,9 @@ export function fitDeconvolved(d: DeconvolvedData, opts: DeconvolvedOptions): Re
     rng,
   );
 
-  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim: 2, nSteps, seed: deriveSeed(seed, 'deconvolved', 'ensemble'), blobDim: 2 });
+  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim: 2, nSteps: nSteps0, seed: deriveSeed(seed, 'deconvolved', 'ensemble'), blobDim: 2, ...(opts.converge ? { until: opts.converge } : {}) });
+  const nSteps = run.nSteps;
+  const burn = Math.floor(nSteps / 5);
   const blobs = run.blobs as Float64Array;
   const m = nSteps * nWalkers;
   const chain = new Float64Array(m * 3);
@@ -508,8 +514,7 @@ function fitDeconvolvedWithCovariate(d: DeconvolvedData, dz: Float64Array, n: nu
   if (n < 4) throw new PosterityError(problem({ message: 'deconvolved fit with dz needs at least 4 objects', expected: '>= 4', got: String(n) }));
   const { pivot, seed } = opts;
   const nWalkers = opts.nWalkers ?? 12;
-  const nSteps = opts.nSteps ?? 600;
-  const burn = Math.floor(nSteps / 5);
+  const nSteps0 = opts.nSteps ?? 600;
   const logPost = marginalPosteriorWithCovariate(d, pivot);
   const scratch = new Float64Array(0);
   const lp = (t: Float64Array): number => logPost(t, scratch);
@@ -531,7 +536,9 @@ function fitDeconvolvedWithCovariate(d: DeconvolvedData, dz: Float64Array, n: nu
     rng,
   );
 
-  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim: 2, nSteps, seed: deriveSeed(seed, 'deconvolved', 'ensemble'), blobDim: 5 });
+  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim: 2, nSteps: nSteps0, seed: deriveSeed(seed, 'deconvolved', 'ensemble'), blobDim: 5, ...(opts.converge ? { until: opts.converge } : {}) });
+  const nSteps = run.nSteps;
+  const burn = Math.floor(nSteps / 5);
   const blobs = run.blobs as Float64Array;
   const m = nSteps * nWalkers;
   // columns (a, b, s, c): c last, after the parameters of the fit without the covariate

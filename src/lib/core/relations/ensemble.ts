@@ -5,6 +5,7 @@
  */
 import { PosterityError, problem } from '../problems.ts';
 import { makeRng } from '../random.ts';
+import { chainDiagnostics } from './diagnostics.ts';
 
 export { integratedAutocorrTime, chainDiagnostics, summariseChain } from './diagnostics.ts';
 export type { ChainDiagnostics } from './diagnostics.ts';
@@ -27,6 +28,12 @@ export interface EnsembleOptions {
    * one half of the ensemble are independent of each other, so they are evaluated together.
    */
   logProbBatch?: (thetas: Float64Array, m: number, out: Float64Array, blobs: Float64Array) => void;
+  /**
+   * Optional: after nSteps, while the largest split R-hat (rank-normalised, walkers as chains,
+   * the first fifth discarded) exceeds `rhat`, the chain is doubled in length, up to maxSteps
+   * steps in all. The same random stream continues, so the result is still fixed by the seed.
+   */
+  until?: { rhat: number; maxSteps: number };
 }
 
 export interface EnsembleResult {
@@ -36,6 +43,8 @@ export interface EnsembleResult {
   logProb: Float64Array;
   /** Fraction of proposals accepted over all steps and walkers. */
   acceptance: number;
+  /** Steps run: nSteps, or more with `until`. */
+  nSteps: number;
   /** Side results of the stored positions: blobs[(step * nWalkers + walker) * blobDim + j]. */
   blobs?: Float64Array;
 }
@@ -95,9 +104,15 @@ export function sampleEnsemble(
     }
   }
 
-  const chain = new Float64Array(nSteps * nWalkers * dim);
-  const chainLp = new Float64Array(nSteps * nWalkers);
-  const blobs = blobDim ? new Float64Array(nSteps * nWalkers * blobDim) : undefined;
+  const until = opts.until;
+  if (until && !(until.rhat > 1 && Number.isInteger(until.maxSteps) && until.maxSteps >= nSteps)) {
+    fail('ensemble sampler: invalid until', 'rhat > 1 and a whole maxSteps >= nSteps', JSON.stringify(until));
+  }
+  const capacity = until ? until.maxSteps : nSteps;
+  const chain = new Float64Array(capacity * nWalkers * dim);
+  const chainLp = new Float64Array(capacity * nWalkers);
+  const blobs = blobDim ? new Float64Array(capacity * nWalkers * blobDim) : undefined;
+  let target = nSteps;
   const half = nWalkers >> 1;
   const sqrtA = Math.sqrt(a);
   const invSqrtA = 1 / sqrtA;
@@ -115,7 +130,7 @@ export function sampleEnsemble(
         if (blobDim) blobs.set(blob, k * blobDim);
       }
     });
-  for (let step = 0; step < nSteps; step++) {
+  for (let step = 0; step < target; step++) {
     for (let h = 0; h < 2; h++) {
       const start = h === 0 ? 0 : half;
       const end = h === 0 ? half : nWalkers;
@@ -153,6 +168,17 @@ export function sampleEnsemble(
     chain.set(pos, step * nWalkers * dim);
     chainLp.set(lp, step * nWalkers);
     if (blobs) blobs.set(curBlob, step * nWalkers * blobDim);
+    if (until && step + 1 === target && target < until.maxSteps) {
+      const { rhat } = chainDiagnostics(chain.subarray(0, target * nWalkers * dim), target, nWalkers, dim, Math.floor(target / 5));
+      if (rhat.some((r) => r > until.rhat)) target = Math.min(2 * target, until.maxSteps);
+    }
   }
-  return { chain, logProb: chainLp, acceptance: accepted / (nSteps * nWalkers), ...(blobs ? { blobs } : {}) };
+  const cut = <T extends Float64Array>(a: T, per: number): Float64Array => (target === capacity ? a : a.slice(0, target * nWalkers * per));
+  return {
+    chain: cut(chain, dim),
+    logProb: cut(chainLp, 1),
+    acceptance: accepted / (target * nWalkers),
+    nSteps: target,
+    ...(blobs ? { blobs: cut(blobs, blobDim) } : {}),
+  };
 }

@@ -46,6 +46,11 @@ export interface HierarchicalOptions {
   nWalkers?: number;
   /** Default 300; the first fifth is discarded as burn-in. */
   nSteps?: number;
+  /**
+   * Optional: while any split R-hat exceeds `rhat`, the chain is doubled, up to maxSteps steps
+   * (the sampler's `until`); the fit reports the steps it ran in its diagnostics.
+   */
+  converge?: { rhat: number; maxSteps: number };
   /** Completeness cut on the true x: objects enter the sample only if x > xMin. */
   selection?: { xMin?: number };
   /**
@@ -595,13 +600,18 @@ function sampleHierarchical(objs: HierarchicalData, opts: HierarchicalOptions, s
   const { terms, logPost, n0, used, xMin, maxDraws, warnings } = st;
   const { pivot, seed } = opts;
   const nWalkers = opts.nWalkers ?? 16;
-  const nSteps = opts.nSteps ?? 300;
-  const burn = Math.floor(nSteps / 5);
+  const nSteps0 = opts.nSteps ?? 300;
   const pre = presolve(st, opts.threads);
   const start = startAtMode(logPost, pre.x0, pre.step, st.h, nWalkers, makeRng(deriveSeed(seed, 'hierarchical', 'start')), { maxEval: pre.maxEval });
   const dim = st.dim;
   const { sampling } = st;
-  const run = sampleEnsemble(sampling.one, start.init, { nWalkers, dim, nSteps, seed: deriveSeed(seed, 'hierarchical', 'ensemble'), logProbBatch: (t, m, out) => sampling.batch(t, m, out) });
+  const run = sampleEnsemble(sampling.one, start.init, {
+    nWalkers, dim, nSteps: nSteps0, seed: deriveSeed(seed, 'hierarchical', 'ensemble'),
+    logProbBatch: (t, m, out) => sampling.batch(t, m, out),
+    ...(opts.converge ? { until: opts.converge } : {}),
+  });
+  const nSteps = run.nSteps;
+  const burn = Math.floor(nSteps / 5);
   const m = nSteps * nWalkers;
   const chain = new Float64Array(m * dim);
   for (let i = 0; i < m; i++) {

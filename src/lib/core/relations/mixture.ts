@@ -20,6 +20,11 @@ export interface MixtureOptions {
   nWalkers?: number;
   /** Default 400; the first fifth is burn-in. */
   nSteps?: number;
+  /**
+   * Optional: while any split R-hat exceeds `rhat`, the chain is doubled, up to maxSteps steps
+   * (the sampler's `until`); the fit reports the steps it ran in its diagnostics.
+   */
+  converge?: { rhat: number; maxSteps: number };
 }
 
 export interface MixtureFit extends RelationFit {
@@ -46,11 +51,27 @@ function componentLogs(d: DeconvolvedData, pivot: number, i: number, a: number, 
  * f N(y; a + b (x - pivot) [+ c dz], s^2 + Cyy - 2 b Cxy + b^2 Cxx) + (1 - f) N(y; mu_o, s_o^2 + Cyy)
  * (sequence as in the deconvolved fit, Hogg, Bovy & Lang 2010 eq. 32 projected vertically;
  * broad component Gaussian in y, their sect. 5 mixture). Only the sequence gets the redshift
- * term (a linear covariate, c last in theta). Priors: flat in a, c and mu_o; flat in the angle
- * of b; flat in s and s_o with s_o > s (which labels the broad component); uniform f on (0, 1).
+ * term (a linear covariate, c last in theta). Priors: flat in a and c; flat in the angle of b;
+ * flat in s; uniform f on (0, 1); for the broad component, mu_o uniform over the range of the
+ * galaxies' y and s_o uniform between s (s_o > s labels the broad component) and that range.
+ * The bounds keep the posterior proper where the broad component holds few galaxies: with f
+ * near 1 the data say little about mu_o and s_o, and flat priors without bounds would let the
+ * walkers drift without end (a broad component wider than all the data, or centred outside
+ * them, describes no galaxy).
  * With `d.objectWeight` each galaxy's log mixture likelihood is multiplied by its weight (its
  * probability of belonging to the sample, e.g. to the redshift bin).
  */
+/** Range of y over the galaxies that count (weight > 0): the support of the broad component's mean and width. */
+function yRange(d: DeconvolvedData): { yLo: number; yHi: number } {
+  let yLo = Infinity, yHi = -Infinity;
+  for (let i = 0; i < d.y.length; i++) {
+    if (d.objectWeight && !(d.objectWeight[i] > 0)) continue;
+    if (d.y[i] < yLo) yLo = d.y[i];
+    if (d.y[i] > yHi) yHi = d.y[i];
+  }
+  return yHi > yLo ? { yLo, yHi } : { yLo: yLo - 1, yHi: yHi + 1 };
+}
+
 function makeLogPosterior(d: DeconvolvedData, pivot: number): (t: Float64Array) => number {
   const n = d.x.length;
   const hasC = d.dz !== undefined;
@@ -62,11 +83,13 @@ function makeLogPosterior(d: DeconvolvedData, pivot: number): (t: Float64Array) 
     sumW = 0;
     for (let i = 0; i < n; i++) sumW += fw[i];
   }
+  const { yLo, yHi } = yRange(d);
+  const lnRange = Math.log(yHi - yLo);
   return (t) => {
     const a = t[0], b = t[1], lnS = t[2], mo = t[3], lnSo = t[4], lf = t[5];
     const c = hasC ? t[6] : 0;
     if (hasC && !Number.isFinite(c)) return -Infinity;
-    if (!(lnS > -30 && lnSo > lnS && lnSo < 30 && Math.abs(lf) < 30) || !Number.isFinite(a) || !Number.isFinite(b) || !Number.isFinite(mo)) return -Infinity;
+    if (!(lnS > -30 && lnSo > lnS && lnSo < lnRange && Math.abs(lf) < 30 && mo >= yLo && mo <= yHi) || !Number.isFinite(a) || !Number.isFinite(b)) return -Infinity;
     const f = 1 / (1 + Math.exp(-lf));
     const lnF = Math.log(f);
     const ln1F = Math.log1p(-f);
@@ -116,8 +139,7 @@ export function fitMixture(d: DeconvolvedData, opts: MixtureOptions): MixtureFit
   const dim = dz ? 7 : 6;
   const { pivot, seed } = opts;
   const nWalkers = opts.nWalkers ?? 16;
-  const nSteps = opts.nSteps ?? 400;
-  const burn = Math.floor(nSteps / 5);
+  const nSteps0 = opts.nSteps ?? 400;
   const logPost = makeLogPosterior(d, pivot);
 
   // start: least squares for the sequence, the broad component at the y mean with twice the spread
@@ -132,7 +154,9 @@ export function fitMixture(d: DeconvolvedData, opts: MixtureOptions): MixtureFit
   for (let i = 0; i < n; i++) vy += (d.y[i] - my) ** 2;
   vy /= n - 1;
   const s0 = Math.sqrt(ols.chi2 / (n - 2)) * 0.7;
-  const so0 = Math.max(Math.sqrt(vy), 2 * s0);
+  // inside the broad component's support: s < s_o < range of y (s0 <= 0.7 sd(y) <= 0.35 range)
+  const range = yRange(d);
+  const so0 = Math.min(Math.max(Math.sqrt(vy), 2 * s0), 0.6 * (range.yHi - range.yLo));
   const seA = Math.sqrt(ols.varA) || 1e-3;
   const seB = Math.sqrt(ols.varB) || 1e-3;
   const rn = Math.sqrt(n);
@@ -154,7 +178,9 @@ export function fitMixture(d: DeconvolvedData, opts: MixtureOptions): MixtureFit
     makeRng(deriveSeed(seed, 'mixture', 'start')),
     { maxEval: dz ? 1400 : 1200 },
   );
-  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim, nSteps, seed: deriveSeed(seed, 'mixture', 'ensemble') });
+  const run = sampleEnsemble(logPost, start.init, { nWalkers, dim, nSteps: nSteps0, seed: deriveSeed(seed, 'mixture', 'ensemble'), ...(opts.converge ? { until: opts.converge } : {}) });
+  const nSteps = run.nSteps;
+  const burn = Math.floor(nSteps / 5);
   const m = nSteps * nWalkers;
   const chain = new Float64Array(m * dim);
   for (let i = 0; i < m; i++) {
