@@ -95,7 +95,7 @@ describe('runPopulation with per-draw redshift-bin membership', () => {
     // and the two bins are told apart: their intercepts differ by several sd
     const [f0, f1] = rel.bins.map((bin) => bin.fits.find((x) => x.method === 'deconvolved')!);
     expect(f1.a.median - f0.a.median).toBeGreaterThan(3 * Math.hypot(0.5 * (f0.a.hi - f0.a.lo), 0.5 * (f1.a.hi - f1.a.lo)));
-  }, 120_000);
+  }, 600_000);
 
   it('where the relation jumps at the bin edge, the intercept is pulled by the contaminating share of f times the jump (a known limit; can fail)', () => {
     // a 0.9 dex step in a at z = 1.5 and broad redshift posteriors (sz = 0.3): the weighted
@@ -162,5 +162,5 @@ describe('runPopulation without a redshift-role parameter', () => {
     expect(now).toEqual(before);
     const noZ = { ...opts, noRedshiftParameter: true };
     expect(asJson(runPopulation(syntheticPopulation(noZ)))).toEqual(asJson(referenceRunPopulation(syntheticPopulation(noZ))));
-  }, 120_000);
+  }, 600_000);
 });

@@ -231,10 +231,10 @@ const MAX_PAGES = 65536;
  * which take chunks from a shared counter; this thread blocks in Atomics.wait for the last
  * chunk. The terms are copied once into a shared WebAssembly memory. Workers are unref'd (they
  * never keep the process alive) and must be released with close() (the hierarchical fit does so
- * in a finally block). `maxBatch` (default 32) is the most parameter sets evaluated in one pass;
+ * in a finally block). `maxBatch` (default 16) is the most parameter sets evaluated in one pass;
  * larger batches are split.
  */
-export function createLikelihoodSum(terms: CompactTerms, threads: number, maxBatch = 32): LikelihoodSum {
+export function createLikelihoodSum(terms: CompactTerms, threads: number, maxBatch = 16): LikelihoodSum {
   const L = layoutFor(terms, maxBatch);
   const pages = Math.ceil(L.bytes / 65536);
   if (pages > MAX_PAGES) {
