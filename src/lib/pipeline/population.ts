@@ -57,7 +57,8 @@ export function stepsFor(termsPerStep: number, budget: number, min: number, max:
 /**
  * Convergence rule of every relation fit's sampler: starting from `nSteps`, the chain is doubled
  * while any split R-hat exceeds 1.05, up to four times its first length (the pages warn above
- * 1.1, the usual threshold; Gelman et al. 2013, Bayesian Data Analysis, sect. 11.4).
+ * 1.1, the usual threshold, common practice; Gelman et al. 2013, Bayesian Data Analysis, sect. 11.4,
+ * section number from memory).
  */
 export function convergeFrom(nSteps: number): { rhat: number; maxSteps: number } {
   return { rhat: 1.05, maxSteps: 4 * nSteps };

@@ -88,13 +88,11 @@ export function sampleEnsemble(
   const theta = new Float64Array(dim);
   const blob = new Float64Array(blobDim);
   const curBlob = new Float64Array(nWalkers * blobDim);
-  const evaluate = (): number => {
-    const v = logProb(theta, blob);
-    if (Number.isNaN(v)) {
-      fail('ensemble sampler: log-probability is NaN', 'a number or -Infinity', `NaN at (${Array.from(theta).join(', ')})`);
-    }
+  const notNaN = (v: number, at: ArrayLike<number>): number => {
+    if (Number.isNaN(v)) fail('ensemble sampler: log-probability is NaN', 'a number or -Infinity', `NaN at (${Array.from(at).join(', ')})`);
     return v;
   };
+  const evaluate = (): number => notNaN(logProb(theta, blob), theta);
   for (let k = 0; k < nWalkers; k++) {
     for (let d = 0; d < dim; d++) theta[d] = pos[k * dim + d];
     lp[k] = evaluate();
@@ -151,10 +149,7 @@ export function sampleEnsemble(
       evalBatch(props, m, lpNew, blobNew);
       for (let k = start; k < end; k++) {
         const q = k - start;
-        const v = lpNew[q];
-        if (Number.isNaN(v)) {
-          fail('ensemble sampler: log-probability is NaN', 'a number or -Infinity', `NaN at (${Array.from(props.subarray(q * dim, (q + 1) * dim)).join(', ')})`);
-        }
+        const v = notNaN(lpNew[q], props.subarray(q * dim, (q + 1) * dim));
         const logRatio = (dim - 1) * Math.log(zs[q]) + v - lp[k];
         const u = rng.next();
         if (v > -Infinity && Math.log(u) < logRatio) {

@@ -442,8 +442,9 @@ function setup(objs: HierarchicalData, opts: HierarchicalOptions, defaultThreads
   if (precision !== 'single' && precision !== 'double') {
     throw new PosterityError(problem({ message: 'hierarchical fit: precision must be single or double', expected: "'single' or 'double'", got: String(precision) }));
   }
-  const logPost = makeLogPosterior(terms, lik, pivot, xMin, dz !== undefined, 'double').one;
-  const sampling = precision === 'double' ? { one: logPost, batch: makeLogPosterior(terms, lik, pivot, xMin, dz !== undefined, 'double').batch } : makeLogPosterior(terms, lik, pivot, xMin, dz !== undefined, precision);
+  const double = makeLogPosterior(terms, lik, pivot, xMin, dz !== undefined, 'double');
+  const logPost = double.one;
+  const sampling = precision === 'double' ? double : makeLogPosterior(terms, lik, pivot, xMin, dz !== undefined, precision);
   return {
     terms,
     dim: x0.length,
