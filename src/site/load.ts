@@ -17,6 +17,7 @@ import type {
   SiteContent,
 } from '../lib/pipeline/content.ts';
 import { idOfSlug } from '../lib/core/slug.ts';
+import { FIGURES, type ObjectFigures } from '../lib/charts/figures.ts';
 
 export type {
   MassFunctionContent,
@@ -110,6 +111,14 @@ export function loadMassFunction(): MassFunctionContent | null {
 /** Outlier list (`outliers.json`), or null when the release has none. */
 export function loadOutliers(): OutlierEntry[] | null {
   return cached('outliers', () => read<OutlierEntry[]>('outliers.json', false));
+}
+
+/** An object's prerendered figures (`figures/objects/<slug>.json`); nulls when they were not rendered. */
+export function loadObjectFigures(slug: string): ObjectFigures {
+  if (idOfSlug(slug) === null) throw new Error(`Posterity site: "${slug}" is not an object slug`);
+  const file = join(contentDir(), 'figures', ...FIGURES.objectFigures(slug).split('/'));
+  if (!existsSync(file)) return { sed: null, sedMag: null, corner: null };
+  return JSON.parse(readFileSync(file, 'utf8')) as ObjectFigures;
 }
 
 /** A prerendered SVG from `content/figures/<path>`, or null when it was not rendered. */

@@ -7,10 +7,17 @@
  *
  * Contours arrive as polylines from the pipeline, so a panel is a few paths, not a grid of
  * density cells (cells cost about 20 times the render time and 100 times the bytes).
+ *
+ * Written straight to SVG from the object's content by `cornerSvg`, in Node for the
+ * prerendered pages and in the browser for the viewer; the grid of panels is fixed by the
+ * number of parameters.
  */
-import type { TopLevelSpec } from 'vega-lite';
 import type { Contour2d, Marginal, ObjectContent, ParamRow } from '../pipeline/content.ts';
-import { baseConfig, COLOURS, SCHEMA } from './theme.ts';
+import { COLOURS } from './theme.ts';
+import { axis } from './svg/axis.ts';
+import { positionScale, type PositionScale } from './svg/scale.ts';
+import { baselineOffset, escapeXml, linePath, px } from './svg/write.ts';
+import { clipRect, idPrefix, panelFrame, svgRoot, symbols, titleBlock } from './sed.ts';
 
 export interface CornerOptions {
   /** Total width in pixels (default 560); each panel is width / k. */
@@ -66,7 +73,20 @@ function domainOf(name: string, row: ParamRow | undefined, marg: Marginal | unde
   return [r4(lo - pad), r4(hi + pad)];
 }
 
-export function cornerSpec(obj: ObjectContent, opts: CornerOptions = {}): TopLevelSpec {
+
+const PAD = 5;
+/** Between panels. */
+const SPACING = 8;
+/** Room above the top row for the diagonal panels' two-line titles. */
+const DIAG_TITLE = 25;
+
+interface Panel {
+  x: PositionScale;
+  y: PositionScale;
+}
+
+/** The corner plot of one object as SVG. */
+export function cornerSvg(obj: ObjectContent, opts: CornerOptions = {}): string {
   const margByName = new Map(obj.marginals.map((m) => [m.param, m]));
   const names = obj.params.map((p) => p.name).filter((n) => margByName.has(n));
   for (const m of obj.marginals) if (!names.includes(m.param)) names.push(m.param);
@@ -81,59 +101,68 @@ export function cornerSpec(obj: ObjectContent, opts: CornerOptions = {}): TopLev
   const levelsSeen = new Set<number>();
   for (const c of obj.contours) for (const lv of c.levels) levelsSeen.add(lv.mass);
   const levels = [...levelsSeen].sort((a, b) => a - b);
+  const clip = idPrefix('cp', obj.id);
+  const xScale = (n: string) => positionScale('linear', domains.get(n)!, [0, cell]);
+  const yScale = (n: string) => positionScale('linear', domains.get(n)!, [cell, 0]);
+  const axisOpts = { tickCount: 4, labelFontSize: 10, labelOverlap: 'parity' as const, labelFlush: true };
 
-  const panels: Record<string, unknown>[] = [];
+  let left = PAD;
+  let bottom = 0;
+  let right = 0;
+  const panels: string[] = [];
   for (let i = 0; i < k; i++) {
     for (let j = 0; j < k; j++) {
+      const at = `translate(${j * (cell + SPACING)},${i * (cell + SPACING)})`;
+      if (j > i) {
+        if (i !== 0 || j !== k - 1) continue;
+        const a = annotation(cell, levels, hasTruth);
+        panels.push(`<g transform="${at}">${a.svg}</g>`);
+        right = Math.max(right, j * (cell + SPACING) + a.width);
+        continue;
+      }
       const xn = names[j];
       const yn = names[i];
-      const bottom = i === k - 1;
-      const left = j === 0;
-      const xEnc = {
-        field: 'x',
-        type: 'quantitative',
-        scale: { domain: domains.get(xn), nice: false, zero: false },
-        axis: bottom ? { title: labelOf(xn), tickCount: 4, grid: false, labelFontSize: 10, labelOverlap: true, labelFlush: true } : null,
-      };
-      if (j > i) {
-        panels.push(j === k - 1 && i === 0 ? annotationPanel(cell, k, levels, hasTruth) : emptyPanel(cell));
-        continue;
+      const x = xScale(xn);
+      let body = panelFrame(cell, cell);
+      if (i === k - 1) {
+        const ax = axis({ orient: 'bottom', height: cell, scale: x, title: labelOf(xn), ...axisOpts });
+        body += ax.svg;
+        bottom = Math.max(bottom, ax.extent);
+        right = Math.max(right, j * (cell + SPACING) + cell + 0.5);
       }
       if (i === j) {
-        panels.push(marginalPanel(cell, xEnc, margByName.get(xn) as Marginal, rows.get(xn), `truth_${i}`));
-        continue;
+        body += marginal(cell, x, margByName.get(xn) as Marginal, rows.get(xn), clip);
+      } else {
+        const y = yScale(yn);
+        if (j === 0) {
+          const ay = axis({ orient: 'left', scale: y, title: labelOf(yn), ...axisOpts });
+          body += ay.svg;
+          left = Math.max(left, Math.ceil(ay.extent) + PAD);
+        }
+        const c = obj.contours.find((cc) => (cc.x === xn && cc.y === yn) || (cc.x === yn && cc.y === xn));
+        body += contour({ x, y }, c, c ? c.x !== xn : false, rows.get(xn)?.truth, rows.get(yn)?.truth, maxPoints, clip);
       }
-      const c = obj.contours.find((cc) => (cc.x === xn && cc.y === yn) || (cc.x === yn && cc.y === xn));
-      const yEnc = {
-        field: 'y',
-        type: 'quantitative',
-        scale: { domain: domains.get(yn), nice: false, zero: false },
-        axis: left ? { title: labelOf(yn), tickCount: 4, grid: false, labelFontSize: 10, labelOverlap: true, labelFlush: true } : null,
-      };
-      panels.push(contourPanel(cell, xEnc, yEnc, c, c ? c.x !== xn : false, rows.get(xn)?.truth, rows.get(yn)?.truth, maxPoints, `truth_${i}_${j}`));
+      panels.push(`<g transform="${at}">${body}</g>`);
     }
   }
+  const head = titleBlock(`Posterior of ${obj.id}`, null);
+  const top = PAD + head.height + 5 + DIAG_TITLE;
+  const grid = Math.max(k, 1) * cell + (Math.max(k, 1) - 1) * SPACING;
+  const widthPx = left + Math.ceil(Math.max(grid, right)) + PAD;
+  const heightPx = top + grid + Math.ceil(bottom) + PAD;
   const levelText = levels.map(massLabel).join(' and ') || '68% and 95%';
-  return {
-    $schema: SCHEMA,
-    title: { text: `Posterior of ${obj.id}` },
-    description:
-      `Corner plot of the posterior of ${obj.id} over ${k} parameters (${names.map(labelOf).join(', ')}): ` +
-      `one-dimensional marginal distributions on the diagonal and, below it, two-dimensional contours enclosing ${levelText} of the posterior mass` +
-      (hasTruth ? '; the true value of this mock object is marked.' : '.'),
-    config: { ...baseConfig(), concat: { spacing: 6 } },
-    columns: Math.max(k, 1),
-    bounds: 'flush',
-    concat: panels.length ? panels : [emptyPanel(cell)],
-    spacing: 8,
-  } as unknown as TopLevelSpec;
+  const description =
+    `Corner plot of the posterior of ${obj.id} over ${k} parameters (${names.map(labelOf).join(', ')}): ` +
+    `one-dimensional marginal distributions on the diagonal and, below it, two-dimensional contours enclosing ${levelText} of the posterior mass` +
+    (hasTruth ? '; the true value of this mock object is marked.' : '.');
+  const body =
+    `<defs>${clipRect(clip, cell, cell)}</defs>` +
+    `<g transform="translate(${PAD},${PAD})">${head.svg}</g>` +
+    `<g transform="translate(${left},${top})">${panels.join('')}</g>`;
+  return svgRoot(widthPx, heightPx, `Posterior of ${obj.id}`, description, body);
 }
 
-function emptyPanel(cell: number): Record<string, unknown> {
-  return { width: cell, height: cell, view: { stroke: null }, data: { values: [{}] }, mark: { type: 'point', opacity: 0 } };
-}
-
-function annotationPanel(cell: number, k: number, levels: number[], hasTruth: boolean): Record<string, unknown> {
+function annotation(cell: number, levels: number[], hasTruth: boolean): { svg: string; width: number } {
   const lines = [
     'Contours enclose',
     `${(levels.length ? levels : [0.68, 0.95]).map(massLabel).join(' and ')} of the`,
@@ -142,121 +171,86 @@ function annotationPanel(cell: number, k: number, levels: number[], hasTruth: bo
     'and 68% interval.',
     ...(hasTruth ? ['Red: true value.'] : []),
   ];
-  return {
-    width: cell,
-    height: cell,
-    view: { stroke: null },
-    data: { values: lines.map((t, n) => ({ t, n })) },
-    mark: { type: 'text', align: 'left', baseline: 'top', fontSize: 10, color: COLOURS.ink, x: 0, limit: 0 },
-    encoding: {
-      y: { field: 'n', type: 'ordinal', axis: null, scale: { domain: lines.map((_, n) => n), range: [0, Math.min(cell, 16 * lines.length)] } },
-      text: { field: 't' },
-    },
-  };
+  // lines on a point scale over [0, min(cell, 16 per line)] with half a step of padding at each end
+  const step = Math.min(cell, 16 * lines.length) / lines.length;
+  const dy = baselineOffset('top', 10);
+  let svg = `<g font-size="10" fill="${COLOURS.ink}">`;
+  lines.forEach((t, n) => (svg += `<text x="0" y="${px(step * (n + 0.5) + dy)}">${escapeXml(t)}</text>`));
+  return { svg: svg + '</g>', width: Math.max(...lines.map((t) => Math.floor(0.8 * 10 * t.length))) };
 }
 
-function marginalPanel(cell: number, xEnc: Record<string, unknown>, m: Marginal, row: ParamRow | undefined, truthName: string): Record<string, unknown> {
-  const hist: { x: number; d: number }[] = [];
-  for (let b = 0; b < m.density.length; b++) hist.push({ x: r4(m.edges[b]), d: r4(m.density[b]) });
-  if (m.density.length) hist.push({ x: r4(m.edges[m.density.length]), d: r4(m.density[m.density.length - 1]) });
-  const kde = m.kdeX.map((x, n) => ({ x: r4(x), d: r4(m.kdeY[n]) }));
-  const dMax = Math.max(1e-300, ...m.density, ...m.kdeY);
-  const yEnc = { field: 'd', type: 'quantitative', scale: { domain: [0, dMax * 1.08], nice: false }, axis: null };
-  const layers: Record<string, unknown>[] = [
-    { data: { values: hist }, mark: { type: 'line', interpolate: 'step-after', color: COLOURS.muted, strokeWidth: 1, clip: true }, encoding: { x: xEnc, y: yEnc } },
-  ];
-  if (kde.length) layers.push({ data: { values: kde }, mark: { type: 'line', color: COLOURS.blue, strokeWidth: 1.5, clip: true }, encoding: { x: xEnc, y: yEnc } });
-  if (row) {
-    layers.push({
-      data: { values: [{ x: row.p16, q: 'p16' }, { x: row.p50, q: 'p50' }, { x: row.p84, q: 'p84' }].map((v) => ({ ...v, x: r4(v.x) })) },
-      mark: { type: 'rule', color: COLOURS.ink, strokeWidth: 1, strokeDash: [3, 2], clip: true },
-      encoding: { x: xEnc },
-    });
-    if (row.truth !== undefined) {
-      layers.push({ name: truthName, data: { values: [{ x: r4(row.truth) }] }, mark: { type: 'rule', color: COLOURS.vermillion, strokeWidth: 1.5, clip: true }, encoding: { x: xEnc } });
-    }
+function marginal(cell: number, x: PositionScale, m: Marginal, row: ParamRow | undefined, clip: string): string {
+  const nb = m.density.length;
+  let dMax = 1e-300;
+  for (const v of m.density) if (v > dMax) dMax = v;
+  for (const v of m.kdeY) if (v > dMax) dMax = v;
+  const y = positionScale('linear', [0, dMax * 1.08], [cell, 0]);
+  // the histogram as a step line: each bin's density from its left edge to the next edge
+  let d = '';
+  for (let b = 0; b < nb; b++) {
+    const x0 = x(r4(m.edges[b])), y0 = y(r4(m.density[b]));
+    d += b === 0 ? `M${px(x0)},${px(y0)}` : `L${px(x0)},${px(y(r4(m.density[b - 1])))}L${px(x0)},${px(y0)}`;
   }
-  return {
-    width: cell,
-    height: cell,
-    title: row ? { text: [row.label, formatInterval(row)], fontSize: 10, anchor: 'middle', limit: 0, offset: 3 } : undefined,
-    layer: layers,
-  };
+  if (nb) d += `L${px(x(r4(m.edges[nb])))},${px(y(r4(m.density[nb - 1])))}`;
+  let s = `<g clip-path="url(#${clip})">`;
+  if (d) s += `<path d="${d}" stroke="${COLOURS.muted}"/>`;
+  if (m.kdeX.length) s += `<path d="${linePath(m.kdeX.map((v) => x(r4(v))), m.kdeY.map((v) => y(r4(v))))}" stroke="${COLOURS.blue}" stroke-width="1.5"/>`;
+  if (row) {
+    let q = '';
+    for (const v of [row.p16, row.p50, row.p84]) q += `M${px(x(r4(v)))},0V${cell}`;
+    s += `<path d="${q}" stroke="${COLOURS.ink}" stroke-dasharray="3,2"/>`;
+    if (row.truth !== undefined) s += `<path d="M${px(x(r4(row.truth)))},0V${cell}" stroke="${COLOURS.vermillion}" stroke-width="1.5"/>`;
+  }
+  s += '</g>';
+  if (row) {
+    // two-line title centred 3 px above the panel
+    const t = `<text x="${px(cell / 2)}" y="${-25 + baselineOffset('top', 10)}">${escapeXml(row.label)}<tspan x="${px(cell / 2)}" dy="12">${escapeXml(formatInterval(row))}</tspan></text>`;
+    s += `<g font-size="10" text-anchor="middle" fill="${COLOURS.ink}">${t}</g>`;
+  }
+  return s;
 }
 
-function contourPanel(
-  cell: number,
-  xEnc: Record<string, unknown>,
-  yEnc: Record<string, unknown>,
-  c: Contour2d | undefined,
-  swap: boolean,
-  truthX: number | undefined,
-  truthY: number | undefined,
-  maxPoints: number,
-  truthName: string,
-): Record<string, unknown> {
-  const layers: Record<string, unknown>[] = [];
+function contour(p: Panel, c: Contour2d | undefined, swap: boolean, truthX: number | undefined, truthY: number | undefined, maxPoints: number, clip: string): string {
+  let s = `<g clip-path="url(#${clip})">`;
   if (c && c.points.length) {
     const step = Math.max(1, Math.ceil(c.points.length / maxPoints));
     const pts: { x: number; y: number }[] = [];
     for (let n = 0; n < c.points.length; n += step) {
-      const p = c.points[n];
-      pts.push(swap ? { x: r4(p[1]), y: r4(p[0]) } : { x: r4(p[0]), y: r4(p[1]) });
+      const q = c.points[n];
+      pts.push({ x: p.x(r4(swap ? q[1] : q[0])), y: p.y(r4(swap ? q[0] : q[1])) });
     }
-    layers.push({ data: { values: pts }, mark: { type: 'point', shape: 'circle', size: 5, filled: true, color: COLOURS.muted, opacity: 0.45, clip: true }, encoding: { x: xEnc, y: yEnc } });
+    s += symbols(pts, { shape: 'circle', size: 5, fill: COLOURS.muted, opacity: 0.45 });
   }
-  const lines: { x: number; y: number; level: string; path: string; i: number }[] = [];
-  const labels: { x: number; y: number; level: string; below: boolean }[] = [];
+  let labels = '';
   if (c) {
     const sorted = [...c.levels].sort((a, b) => a.mass - b.mass);
-    for (const lv of sorted) {
-      const label = massLabel(lv.mass);
+    sorted.forEach((lv, li) => {
       // the innermost level is labelled below its lowest point, the others above their highest
       const below = lv === sorted[0] && sorted.length > 1;
       let top: { x: number; y: number } | null = null;
-      lv.paths.forEach((path, pi) => {
-        path.forEach((pt, i) => {
+      let d = '';
+      for (const path of lv.paths) {
+        const xs: number[] = [], ys: number[] = [];
+        for (const pt of path) {
           const x = r4(swap ? pt[1] : pt[0]);
           const y = r4(swap ? pt[0] : pt[1]);
-          lines.push({ x, y, level: label, path: `${label}-${pi}`, i });
+          xs.push(p.x(x));
+          ys.push(p.y(y));
           if (!top || (below ? y < top.y : y > top.y)) top = { x, y };
-        });
-      });
-      if (top) labels.push({ ...(top as { x: number; y: number }), level: label, below });
-    }
-  }
-  if (lines.length) {
-    const domain = [...new Set(lines.map((l) => l.level))];
-    layers.push({
-      data: { values: lines },
-      mark: { type: 'line', color: COLOURS.blue, clip: true },
-      encoding: {
-        x: xEnc,
-        y: yEnc,
-        detail: { field: 'path' },
-        order: { field: 'i', type: 'quantitative' },
-        strokeDash: { field: 'level', type: 'nominal', scale: { domain, range: domain.map((_, n) => (n === 0 ? [1, 0] : [4, 2])) }, legend: null },
-        strokeWidth: { field: 'level', type: 'ordinal', scale: { domain, range: domain.map((_, n) => (n === 0 ? 1.6 : 1.1)) }, legend: null },
-      },
-    });
-    for (const below of [false, true]) {
-      const vals = labels.filter((l) => l.below === below).map(({ x, y, level }) => ({ x, y, level }));
-      if (!vals.length) continue;
-      layers.push({
-        data: { values: vals },
-        mark: { type: 'text', fontSize: 9, baseline: below ? 'top' : 'bottom', dy: below ? 1 : -1, color: COLOURS.blue },
-        encoding: { x: xEnc, y: yEnc, text: { field: 'level' } },
-      });
-    }
-  }
-  if (truthX !== undefined && truthY !== undefined) {
-    layers.push({
-      name: truthName,
-      data: { values: [{ x: r4(truthX), y: r4(truthY) }] },
-      mark: { type: 'point', shape: 'cross', size: 70, filled: true, color: COLOURS.vermillion, opacity: 1, clip: true },
-      encoding: { x: xEnc, y: yEnc },
+        }
+        d += linePath(xs, ys);
+      }
+      if (d) s += `<path d="${d}" stroke="${COLOURS.blue}"${li === 0 ? ' stroke-width="1.6"' : ' stroke-width="1.1" stroke-dasharray="4,2"'}/>`;
+      if (top) {
+        const t = top as { x: number; y: number };
+        const dy = below ? 1 + baselineOffset('top', 9) : -1 + baselineOffset('bottom', 9);
+        labels += `<text x="${px(p.x(t.x))}" y="${px(p.y(t.y) + dy)}">${massLabel(lv.mass)}</text>`;
+      }
     });
   }
-  if (!layers.length) layers.push({ data: { values: [{ x: 0, y: 0 }] }, mark: { type: 'point', opacity: 0 }, encoding: { x: xEnc, y: yEnc } });
-  return { width: cell, height: cell, layer: layers };
+  s += '</g>';
+  if (labels) s += `<g font-size="9" text-anchor="middle" fill="${COLOURS.blue}">${labels}</g>`;
+  // the true value over everything else
+  if (truthX !== undefined && truthY !== undefined) s += `<g clip-path="url(#${clip})">${symbols([{ x: p.x(r4(truthX)), y: p.y(r4(truthY)) }], { shape: 'cross', size: 70, fill: COLOURS.vermillion })}</g>`;
+  return s;
 }

@@ -4,12 +4,12 @@
  */
 import type { TopLevelSpec } from 'vega-lite';
 import type { MassFunctionContent, ObjectContent, QualityContent, RelationContent, SiteContent } from '../pipeline/content.ts';
-import { cornerSpec } from './corner.ts';
+import { cornerSvg } from './corner.ts';
 import { massSpec, redshiftSpec } from './home.ts';
 import { massFunctionSpec } from './massfunction.ts';
 import { coverageSpec, essSpec, flagsByRedshiftSpec, flagsSpec, pitSpec, pvalueSpec } from './quality.ts';
 import { relationPanelSpec, relationPointsSpec, relationSpec } from './relation.ts';
-import { sedSpec } from './sed.ts';
+import { sedModel, sedSvg } from './sed.ts';
 import { skySpec } from './sky.ts';
 
 export interface FigureJob {
@@ -21,9 +21,8 @@ export interface FigureJob {
 }
 
 export const FIGURES = Object.freeze({
-  objectSed: (slug: string) => `objects/${slug}/sed.svg`,
-  objectSedMag: (slug: string) => `objects/${slug}/sed-mag.svg`,
-  objectCorner: (slug: string) => `objects/${slug}/corner.svg`,
+  /** An object's three figures (`ObjectFigures` as JSON). */
+  objectFigures: (slug: string) => `objects/${slug}.json`,
   /** Every bin of a relation in one figure (download and print; PNG beside it). */
   relation: (name: string) => `relations/${name}.svg`,
   /** One redshift bin of a relation (the page's small multiples). */
@@ -60,14 +59,21 @@ export function pngOf(svgPath: string): string {
   return svgPath.replace(/\.svg$/, '.png');
 }
 
-export function objectFigureJobs(obj: ObjectContent): FigureJob[] {
-  const jobs: FigureJob[] = [];
-  if (obj.photometry.length || obj.spectra.length || obj.model) {
-    jobs.push({ path: FIGURES.objectSed(obj.slug), spec: sedSpec(obj, { units: 'flux' }) });
-    jobs.push({ path: FIGURES.objectSedMag(obj.slug), spec: sedSpec(obj, { units: 'mag' }) });
-  }
-  if (obj.marginals.length) jobs.push({ path: FIGURES.objectCorner(obj.slug), spec: cornerSpec(obj) });
-  return jobs;
+/** An object's figures as SVG text: the SED in flux density and in AB magnitudes, and the corner plot (null where there is nothing to draw). */
+export interface ObjectFigures {
+  sed: string | null;
+  sedMag: string | null;
+  corner: string | null;
+}
+
+/** Draw an object's figures (pure and fast: the same call serves the prerender and the browser viewer). */
+export function objectFigures(obj: ObjectContent): ObjectFigures {
+  const hasSed = obj.photometry.length > 0 || obj.spectra.length > 0 || obj.model !== null;
+  return {
+    sed: hasSed ? sedSvg(sedModel(obj, { units: 'flux' })) : null,
+    sedMag: hasSed ? sedSvg(sedModel(obj, { units: 'mag' })) : null,
+    corner: obj.marginals.length ? cornerSvg(obj) : null,
+  };
 }
 
 export function siteFigureJobs(

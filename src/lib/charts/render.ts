@@ -1,7 +1,7 @@
 /**
- * Server-side rendering of a Vega-Lite spec to a compact, deterministic SVG string:
- * vega-lite compile, then a headless Vega View (renderer 'none'), then `toSVG`, then a
- * clean-up pass that removes what varies between runs or only costs bytes.
+ * Server-side rendering of a Vega-Lite spec (the site-level figures) to a compact,
+ * deterministic SVG string: vega-lite compile, then a headless Vega View (renderer 'none'),
+ * then `toSVG`, then a clean-up pass that removes what varies between runs or only costs bytes.
  *
  * What the clean-up does, and why:
  * - clip-path and gradient ids come from a process-wide counter in Vega, so the same chart
@@ -114,117 +114,8 @@ const SILENT: Logger = {
   },
 };
 
-/**
- * A Vega-Lite spec split into its shape (the skeleton) and the values that change from one
- * object to the next: inline datasets become named data sources, numeric scale domains and
- * ranges and the titles of views become top-level params. Specs of the same shape (every SED of
- * a release with the same kinds of layers, every corner plot of the same parameters) share one
- * skeleton, so it is compiled and parsed once and its View re-run with new data.
- */
-export interface LiftedSpec {
-  skeleton: Record<string, unknown>;
-  datasets: { name: string; values: unknown[] }[];
-  params: { name: string; value: unknown }[];
-}
-
-const VIEW_KEYS = ['mark', 'layer', 'concat', 'hconcat', 'vconcat', 'facet', 'repeat'];
-const isNumberArray = (v: unknown): v is number[] => Array.isArray(v) && v.length > 0 && v.every((x) => typeof x === 'number' && Number.isFinite(x));
-const isText = (v: unknown): v is string | string[] => typeof v === 'string' || (Array.isArray(v) && v.every((x) => typeof x === 'string'));
-
-export function liftSpec(spec: TopLevelSpec): LiftedSpec {
-  const datasets: LiftedSpec['datasets'] = [];
-  const params: LiftedSpec['params'] = [];
-  // equal values share one param, so Vega-Lite still sees equal domains as one (no union)
-  const byValue = new Map<string, string>();
-  const param = (value: unknown): string => {
-    const k = stableStringify(value);
-    const known = byValue.get(k);
-    if (known) return known;
-    const name = `lift_p${params.length}`;
-    params.push({ name, value });
-    byValue.set(k, name);
-    return name;
-  };
-  const walk = (v: unknown, key: string | null, parent: Record<string, unknown> | null): unknown => {
-    if (Array.isArray(v)) return v.map((x) => walk(x, null, null));
-    if (v === null || typeof v !== 'object') return v;
-    const o = v as Record<string, unknown>;
-    if (key === 'data' && Array.isArray(o.values)) {
-      const name = `lift_d${datasets.length}`;
-      datasets.push({ name, values: o.values });
-      const { values: _values, ...rest } = o;
-      return { ...rest, name };
-    }
-    const isView = VIEW_KEYS.some((k) => k in o);
-    const out: Record<string, unknown> = {};
-    for (const [k, x] of Object.entries(o)) {
-      if (isView && k === 'description') continue; // only read from the original spec, by cleanSvg
-      if (key === 'scale' && (k === 'domain' || k === 'range') && isNumberArray(x)) {
-        const name = param(x);
-        out[k] = x.map((_, i) => ({ expr: `${name}[${i}]` }));
-      } else if (isView && k === 'title' && (isText(x) || (x && typeof x === 'object' && isText((x as { text?: unknown }).text)))) {
-        out[k] = isText(x) ? { text: { expr: param(x) } } : { ...(x as object), text: { expr: param((x as { text: unknown }).text) } };
-      } else out[k] = walk(x, k, o);
-    }
-    void parent;
-    return out;
-  };
-  const skeleton = walk(spec, null, null) as Record<string, unknown>;
-  if (params.length) skeleton.params = [...((skeleton.params as unknown[]) ?? []), ...params.map((p) => ({ name: p.name, value: null }))];
-  return { skeleton, datasets, params };
-}
-
-/**
- * A parsed skeleton. Each render builds a fresh View from it: a View re-run with new data keeps
- * the scenegraph items that survive (axis ticks, legend entries) in their old order, so the
- * bytes of a figure would depend on what was drawn before it; a fresh View from the parsed
- * skeleton does not, and still skips the Vega-Lite compile and the Vega parse.
- */
-interface Template {
-  runtime: ReturnType<typeof parse>;
-}
-
-/** Parsed skeletons of this thread, most recently used last; a few shapes cover a release. */
-const templates = new Map<string, Template>();
-const MAX_TEMPLATES = 64;
-
-function templateFor(lifted: LiftedSpec): Template {
-  const key = createHash('sha256').update(stableStringify(lifted.skeleton)).digest('hex');
-  const hit = templates.get(key);
-  if (hit) {
-    templates.delete(key);
-    templates.set(key, hit);
-    return hit;
-  }
-  const vg = compile(lifted.skeleton as unknown as TopLevelSpec, { logger: SILENT as never }).spec;
-  const t: Template = { runtime: parse(vg) };
-  templates.set(key, t);
-  if (templates.size > MAX_TEMPLATES) templates.delete(templates.keys().next().value!);
-  return t;
-}
-
-/** Drop the parsed skeletons (tests; long-lived processes between releases). */
-export function clearTemplates(): void {
-  templates.clear();
-}
-
-/** Render a Vega-Lite spec to a deterministic SVG string. */
+/** Render a Vega-Lite spec to a deterministic SVG string (compiled and parsed afresh: site figures are few). */
 export async function renderSvg(vlSpec: TopLevelSpec, opts: RenderOptions = {}): Promise<string> {
-  const lifted = liftSpec(vlSpec);
-  const view = new View(templateFor(lifted).runtime, { renderer: 'none', logLevel: 0 });
-  try {
-    for (const d of lifted.datasets) view.data(d.name, d.values.map((x) => (x !== null && typeof x === 'object' ? { ...(x as object) } : x)));
-    for (const p of lifted.params) view.signal(p.name, p.value);
-    const svg = await view.toSVG();
-    const spec = vlSpec as { title?: unknown; description?: string };
-    return cleanSvg(svg, { title: textOf(spec.title) || undefined, description: spec.description }, opts.idPrefix);
-  } finally {
-    view.finalize();
-  }
-}
-
-/** The reference path: compile and parse the whole spec for this one render (tests compare the two). */
-export async function renderSvgFresh(vlSpec: TopLevelSpec, opts: RenderOptions = {}): Promise<string> {
   const vg = compile(vlSpec, { logger: SILENT as never }).spec;
   const view = new View(parse(vg), { renderer: 'none', logLevel: 0 });
   try {

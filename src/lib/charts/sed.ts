@@ -3,10 +3,17 @@
  * upper limits as downward arrows at their n-sigma value, the model SED and model photometry,
  * observed spectra with an error band and shaded masked ranges, and a residual panel
  * (data minus model over error) below. Flux density in microjansky or AB magnitude.
+ *
+ * The figure is written straight to SVG from one chart model (`sedModel`: scales, series and
+ * legend in plain data) by `sedSvg`, in Node for the prerendered pages and in the browser for
+ * the viewer, so both draw the same figure. Its layout is fixed: a 560 x 280 px panel over a
+ * 560 x 100 px residual panel, whatever the data.
  */
-import type { TopLevelSpec } from 'vega-lite';
 import type { ObjectContent, PhotPoint } from '../pipeline/content.ts';
-import { baseConfig, COLOURS, SCHEMA } from './theme.ts';
+import { COLOURS } from './theme.ts';
+import { axis } from './svg/axis.ts';
+import { positionScale, type PositionScale } from './svg/scale.ts';
+import { areaPath, attrs, escapeXml, linePath, px, symbolPath, textWidth, type SymbolShape } from './svg/write.ts';
 
 export type SedUnits = 'flux' | 'mag';
 
@@ -22,6 +29,7 @@ export function abMagFromUJy(fUJy: number): number {
   return 23.9 - 2.5 * Math.log10(fUJy);
 }
 
+/** Plotted values are rounded to 1e-4 (microjansky or magnitudes); a flux that rounds to zero is not drawn on the log axis. */
 const r4 = (x: number): number => Math.round(x * 1e4) / 1e4;
 
 interface PlotPoint {
@@ -46,9 +54,10 @@ export function sedPoints(phot: PhotPoint[], units: SedUnits, limitNsigma = 3): 
   const meas: PlotPoint[] = [];
   const limits: LimitPoint[] = [];
   const model: { band: string; wl: number; y: number }[] = [];
+  const rv = r4;
   for (const p of phot) {
     if (!(p.wavelengthUm > 0)) continue;
-    if (p.modelUJy !== null && p.modelUJy > 0) model.push({ band: p.label, wl: p.wavelengthUm, y: r4(units === 'mag' ? abMagFromUJy(p.modelUJy) : p.modelUJy) });
+    if (p.modelUJy !== null && p.modelUJy > 0) model.push({ band: p.label, wl: p.wavelengthUm, y: rv(units === 'mag' ? abMagFromUJy(p.modelUJy) : p.modelUJy) });
     let limit: { value: number; n: number } | null = null;
     if (p.upperLimit) limit = { value: p.limitUJy ?? (p.limitNsigma ?? limitNsigma) * p.errUJy, n: p.limitNsigma ?? limitNsigma };
     else if (units === 'mag' && !(p.fluxUJy > 0)) limit = { value: limitNsigma * p.errUJy, n: limitNsigma };
@@ -58,7 +67,7 @@ export function sedPoints(phot: PhotPoint[], units: SedUnits, limitNsigma = 3): 
         const m = abMagFromUJy(limit.value);
         limits.push({ band: p.label, wl: p.wavelengthUm, y: r4(m), tip: r4(m + 0.75), nsigma: limit.n });
       } else {
-        limits.push({ band: p.label, wl: p.wavelengthUm, y: r4(limit.value), tip: r4(limit.value / 2.5), nsigma: limit.n });
+        limits.push({ band: p.label, wl: p.wavelengthUm, y: rv(limit.value), tip: rv(limit.value / 2.5), nsigma: limit.n });
       }
       continue;
     }
@@ -70,7 +79,7 @@ export function sedPoints(phot: PhotPoint[], units: SedUnits, limitNsigma = 3): 
       const faint = p.fluxUJy - p.errUJy > 0 ? abMagFromUJy(p.fluxUJy - p.errUJy) : m + 2.5;
       meas.push({ band: p.label, wl: p.wavelengthUm, y: r4(m), lo: r4(bright), hi: r4(faint) });
     } else {
-      meas.push({ band: p.label, wl: p.wavelengthUm, y: r4(p.fluxUJy), lo: r4(p.fluxUJy - p.errUJy), hi: r4(p.fluxUJy + p.errUJy) });
+      meas.push({ band: p.label, wl: p.wavelengthUm, y: rv(p.fluxUJy), lo: rv(p.fluxUJy - p.errUJy), hi: rv(p.fluxUJy + p.errUJy) });
     }
   }
   return { meas, limits, model };
@@ -104,25 +113,63 @@ function extent(values: number[]): [number, number] {
   return [lo, hi];
 }
 
-export function sedSpec(obj: ObjectContent, opts: SedOptions): TopLevelSpec {
+
+/** One series of the legend, in drawing order. */
+export const SED_SERIES = ['observed', 'flux ≤ 0 (on axis floor)', 'upper limit', 'model SED', 'model photometry', 'spectrum'] as const;
+export type SedSeries = (typeof SED_SERIES)[number];
+const SERIES_COLOUR: Record<SedSeries, string> = {
+  observed: COLOURS.ink,
+  'flux ≤ 0 (on axis floor)': COLOURS.ink,
+  'upper limit': COLOURS.ink,
+  'model SED': COLOURS.blue,
+  'model photometry': COLOURS.vermillion,
+  spectrum: COLOURS.green,
+};
+
+/** Everything the SED figure draws, in data units: the chart model shared by Node and the browser. */
+export interface SedModel {
+  id: string;
+  units: SedUnits;
+  width: number;
+  xDomain: [number, number];
+  /** Flux: log scale, [low, high]; magnitudes: linear, [faint, bright]. */
+  yDomain: [number, number];
+  masks: { lo: number; hi: number }[];
+  spectra: { instrument: string; points: { wl: number; y: number; lo: number; hi: number }[] }[];
+  sedLine: { wl: number; y: number }[];
+  modelPhot: { wl: number; y: number }[];
+  meas: PlotPoint[];
+  /** Non-positive forced fluxes (flux mode): drawn on the axis floor. */
+  floor: PlotPoint[];
+  limits: LimitPoint[];
+  resid: { wl: number; y: number }[];
+  rDomain: [number, number];
+  legend: SedSeries[];
+  title: string;
+  subtitle: string;
+  description: string;
+}
+
+export function sedModel(obj: ObjectContent, opts: SedOptions): SedModel {
   const units = opts.units;
-  const width = opts.width ?? 560;
   const mag = units === 'mag';
   const { meas, limits, model } = sedPoints(obj.photometry, units, opts.limitNsigma ?? 3);
   const positive = (v: number) => (mag ? Number.isFinite(v) : v > 0);
   const conv = (f: number) => (mag ? (f > 0 ? abMagFromUJy(f) : NaN) : f);
+  const rv = r4;
 
   const sedLine: { wl: number; y: number }[] = [];
   if (obj.model) {
     const shift = obj.model.frame === 'rest' ? 1 + obj.redshift : 1;
     for (let i = 0; i < obj.model.wavelengthUm.length; i++) {
       const y = conv(obj.model.fluxUJy[i]);
-      if (positive(y) && obj.model.wavelengthUm[i] > 0) sedLine.push({ wl: r4(obj.model.wavelengthUm[i] * shift), y: r4(y) });
+      if (positive(y) && obj.model.wavelengthUm[i] > 0) sedLine.push({ wl: r4(obj.model.wavelengthUm[i] * shift), y: rv(y) });
     }
   }
-  const spec: { wl: number; y: number; lo: number; hi: number; instrument: string }[] = [];
-  const masks: { lo: number; hi: number; instrument: string }[] = [];
+  const spectra: SedModel['spectra'] = [];
+  const masks: SedModel['masks'] = [];
   for (const s of obj.spectra) {
+    const points: SedModel['spectra'][number]['points'] = [];
     for (let i = 0; i < s.wavelengthUm.length; i++) {
       if (s.mask[i]) continue;
       const f = s.fluxUJy[i];
@@ -131,12 +178,14 @@ export function sedSpec(obj: ObjectContent, opts: SedOptions): TopLevelSpec {
       if (!positive(y)) continue;
       const a = conv(f + e);
       const b = f - e > 0 ? conv(f - e) : mag ? y + 2.5 : f / 10;
-      spec.push({ wl: r4(s.wavelengthUm[i]), y: r4(y), lo: r4(Math.min(a, b)), hi: r4(Math.max(a, b)), instrument: s.instrument });
+      points.push({ wl: r4(s.wavelengthUm[i]), y: rv(y), lo: rv(Math.min(a, b)), hi: rv(Math.max(a, b)) });
     }
-    for (const [lo, hi] of maskedRanges(s.wavelengthUm, s.mask)) masks.push({ lo, hi, instrument: s.instrument });
+    if (points.length) spectra.push({ instrument: s.instrument, points });
+    for (const [lo, hi] of maskedRanges(s.wavelengthUm, s.mask)) masks.push({ lo, hi });
   }
+  const spec = spectra.flatMap((s) => s.points);
 
-  // Axis domains from everything drawn (so the log axis never meets a non-positive value).
+  // axis domains from everything drawn (so the log axis never meets a non-positive value)
   const allWl = [...meas.map((p) => p.wl), ...limits.map((p) => p.wl), ...sedLine.map((p) => p.wl), ...spec.map((p) => p.wl)];
   const [wlMin, wlMax] = extent(allWl);
   const xDomain: [number, number] = Number.isFinite(wlMin) ? [r4(wlMin / 1.15), r4(wlMax * 1.15)] : [0.1, 10];
@@ -144,180 +193,191 @@ export function sedSpec(obj: ObjectContent, opts: SedOptions): TopLevelSpec {
   if (mag) ys.push(...meas.map((p) => p.lo), ...meas.map((p) => p.hi), ...limits.map((p) => p.tip));
   else ys.push(...meas.map((p) => p.hi), ...limits.map((p) => p.tip), ...meas.filter((p) => p.lo > 0).map((p) => p.lo));
   const [yMin0, yMax0] = extent(ys.filter((v) => (mag ? Number.isFinite(v) : v > 0)));
-  // SED line limited to the photometric range to keep the axis readable
+  // the SED line is limited to the photometric range to keep the axis readable
   const yMin = Number.isFinite(yMin0) ? yMin0 : mag ? 20 : 0.1;
   const yMax = Number.isFinite(yMax0) ? yMax0 : mag ? 30 : 100;
   const yDomain: [number, number] = mag ? [r4(yMax + 0.3), r4(yMin - 0.3)] : [r4(yMin / 1.6), r4(yMax * 1.6)];
-  // Flux mode: a non-positive forced flux cannot sit on a log axis; it is drawn as an open
-  // circle on the axis floor with its error bar, and says so in the legend.
+  // flux mode: a non-positive forced flux cannot sit on a log axis; it is drawn as an open
+  // circle on the axis floor with its error bar, and says so in the legend
   const floor = mag ? [] : meas.filter((p) => !(p.y > 0)).map((p) => ({ ...p, y: yDomain[0], lo: yDomain[0], hi: Math.max(p.hi, yDomain[0]) }));
-  if (!mag) {
-    for (let i = meas.length - 1; i >= 0; i--) if (!(meas[i].y > 0)) meas.splice(i, 1);
-    for (const p of meas) if (p.lo <= 0) p.lo = yDomain[0];
-  }
+  const shown = mag ? meas : meas.filter((p) => p.y > 0).map((p) => (p.lo <= 0 ? { ...p, lo: yDomain[0] } : p));
   const lines = sedLine.filter((p) => (mag ? p.y <= yDomain[0] && p.y >= yDomain[1] : p.y >= yDomain[0] && p.y <= yDomain[1]));
 
-  const x = {
-    field: 'wl',
-    type: 'quantitative',
-    scale: { type: 'log', domain: xDomain, nice: false },
-    axis: { title: 'Observed wavelength (µm)', grid: false, tickCount: 6 },
-  };
-  const yTitle = mag ? 'AB magnitude' : 'Flux density (µJy)';
-  const y = {
-    field: 'y',
-    type: 'quantitative',
-    scale: mag ? { domain: yDomain, nice: false, zero: false } : { type: 'log', domain: yDomain, nice: false },
-    axis: { title: yTitle, grid: true, tickCount: 6 },
-  };
-  const yRange = (f: string) => ({ field: f, type: 'quantitative', scale: y.scale });
+  const resid = obj.photometry
+    .filter((p) => p.residualSigma !== null && Number.isFinite(p.residualSigma) && p.wavelengthUm > 0)
+    .map((p) => ({ wl: p.wavelengthUm, y: r4(p.residualSigma as number) }));
+  const rMax = Math.max(3, ...resid.map((p) => Math.abs(p.y)));
+  const rDomain: [number, number] = [-Math.ceil(rMax + 0.5), Math.ceil(rMax + 0.5)];
 
-  const SERIES_DOMAIN = ['observed', 'flux ≤ 0 (on axis floor)', 'upper limit', 'model SED', 'model photometry', 'spectrum'];
-  const SERIES_RANGE = [COLOURS.ink, COLOURS.ink, COLOURS.ink, COLOURS.blue, COLOURS.vermillion, COLOURS.green];
-  const present = new Set<string>();
-  if (meas.length) present.add('observed');
+  const present = new Set<SedSeries>();
+  if (shown.length) present.add('observed');
   if (floor.length) present.add('flux ≤ 0 (on axis floor)');
   if (limits.length) present.add('upper limit');
   if (lines.length) present.add('model SED');
   if (model.length) present.add('model photometry');
   if (spec.length) present.add('spectrum');
-  const domain = SERIES_DOMAIN.filter((d) => present.has(d));
-  const range = SERIES_DOMAIN.map((d, i) => (present.has(d) ? SERIES_RANGE[i] : null)).filter((c) => c !== null) as string[];
-  const colour = (series: string) => ({
-    datum: series,
-    type: 'nominal',
-    scale: { domain, range },
-    legend: { title: null, orient: 'top', direction: 'horizontal', columnPadding: 14, labelLimit: 0 },
-  });
-
-  const layers: Record<string, unknown>[] = [];
-  if (masks.length) {
-    layers.push({
-      data: { values: masks },
-      mark: { type: 'rect', color: COLOURS.shade, opacity: 0.5 },
-      encoding: { x: { field: 'lo', type: 'quantitative', scale: x.scale, axis: x.axis }, x2: { field: 'hi' } },
-    });
-  }
-  if (spec.length) {
-    layers.push({
-      data: { values: spec },
-      mark: { type: 'area', opacity: 0.25, color: COLOURS.green },
-      encoding: { x, y: yRange('lo'), y2: { field: 'hi' }, detail: { field: 'instrument' } },
-    });
-    layers.push({
-      data: { values: spec },
-      mark: { type: 'line', strokeWidth: 1, clip: true },
-      encoding: { x, y, detail: { field: 'instrument' }, color: colour('spectrum') },
-    });
-  }
-  if (lines.length) {
-    layers.push({
-      data: { values: lines },
-      mark: { type: 'line', strokeWidth: 1.5, clip: true },
-      encoding: { x, y, color: colour('model SED') },
-    });
-  }
-  if (model.length) {
-    layers.push({
-      data: { values: model },
-      mark: { type: 'point', shape: 'square', size: 60, filled: false, strokeWidth: 1.5, clip: true },
-      encoding: { x, y, color: colour('model photometry') },
-    });
-  }
-  if (meas.length) {
-    layers.push({
-      data: { values: meas },
-      mark: { type: 'rule', strokeWidth: 1.2, clip: true },
-      encoding: { x, y: yRange('lo'), y2: { field: 'hi' }, color: colour('observed') },
-    });
-    layers.push({
-      data: { values: meas },
-      mark: { type: 'point', shape: 'circle', size: 36, filled: true, opacity: 1, clip: true },
-      encoding: { x, y, color: colour('observed') },
-    });
-  }
-  if (floor.length) {
-    layers.push({
-      data: { values: floor },
-      mark: { type: 'rule', strokeWidth: 1.2, clip: true },
-      encoding: { x, y: yRange('lo'), y2: { field: 'hi' }, color: colour('flux ≤ 0 (on axis floor)') },
-    });
-    layers.push({
-      data: { values: floor },
-      mark: { type: 'point', shape: 'circle', size: 40, filled: false, strokeWidth: 1.5, opacity: 1 },
-      encoding: { x, y, color: colour('flux ≤ 0 (on axis floor)') },
-    });
-  }
-  if (limits.length) {
-    layers.push({
-      data: { values: limits },
-      mark: { type: 'rule', strokeWidth: 1.2, clip: true },
-      encoding: { x, y, y2: { field: 'tip' }, color: colour('upper limit') },
-    });
-    layers.push({
-      data: { values: limits },
-      mark: { type: 'point', shape: 'triangle-down', size: 50, filled: true, opacity: 1, clip: true },
-      encoding: { x, y: { ...yRange('tip') }, color: colour('upper limit') },
-    });
-    layers.push({
-      data: { values: limits },
-      mark: { type: 'tick', orient: 'horizontal', size: 12, thickness: 1.5, clip: true },
-      encoding: { x, y, color: colour('upper limit') },
-    });
-  }
-  if (layers.length === 0) {
-    layers.push({ data: { values: [{ wl: 1, y: mag ? 25 : 1 }] }, mark: { type: 'point', opacity: 0 }, encoding: { x, y } });
-  }
-
-  const resid = obj.photometry
-    .filter((p) => p.residualSigma !== null && Number.isFinite(p.residualSigma) && p.wavelengthUm > 0)
-    .map((p) => ({ wl: p.wavelengthUm, y: r4(p.residualSigma as number), band: p.label }));
-  const rMax = Math.max(3, ...resid.map((p) => Math.abs(p.y)));
-  const rDomain: [number, number] = [-Math.ceil(rMax + 0.5), Math.ceil(rMax + 0.5)];
-  const residPanel = {
-    width,
-    height: 100,
-    layer: [
-      { data: { values: [{ y: 0 }] }, mark: { type: 'rule', color: COLOURS.muted }, encoding: { y: { field: 'y', type: 'quantitative', scale: { domain: rDomain, nice: false } } } },
-      { data: { values: [{ y: -3 }, { y: 3 }] }, mark: { type: 'rule', color: COLOURS.grid, strokeDash: [4, 3] }, encoding: { y: { field: 'y', type: 'quantitative' } } },
-      ...(resid.length
-        ? [
-            {
-              data: { values: resid },
-              mark: { type: 'point', shape: 'circle', size: 30, filled: true, color: COLOURS.ink, opacity: 1, clip: true },
-              encoding: {
-                x: { ...x, axis: { ...x.axis } },
-                y: { field: 'y', type: 'quantitative', scale: { domain: rDomain, nice: false }, axis: { title: 'Residual / error', grid: false, tickCount: 5 } },
-              },
-            },
-          ]
-        : [
-            {
-              data: { values: [{ wl: xDomain[0], y: 0 }] },
-              mark: { type: 'point', opacity: 0 },
-              encoding: { x, y: { field: 'y', type: 'quantitative', axis: { title: 'Residual / error' } } },
-            },
-          ]),
-    ],
-  };
 
   const nLim = limits.length;
   const description =
-    `Spectral energy distribution of ${obj.id} at redshift ${obj.redshift}: ${meas.length + floor.length} photometric measurements` +
+    `Spectral energy distribution of ${obj.id} at redshift ${obj.redshift}: ${shown.length + floor.length} photometric measurements` +
     (nLim ? `, ${nLim} upper limit${nLim > 1 ? 's' : ''} drawn as downward arrows` : '') +
     (lines.length ? ', the best-fitting model SED' : '') +
     (spec.length ? `, ${obj.spectra.length} observed spectrum${obj.spectra.length > 1 ? 'a' : ''}` : '') +
     `, in ${mag ? 'AB magnitudes' : 'microjansky'} against observed wavelength; the lower panel shows residuals in units of the measurement error.`;
-
-  // the main panel hides its x axis: the residual panel below carries it
-  const main = { width, height: 280, layer: layers.map((l) => ({ ...l, encoding: { ...(l.encoding as Record<string, unknown>), x: { ...((l.encoding as Record<string, Record<string, unknown>>).x ?? {}), axis: null } } })) };
   return {
-    $schema: SCHEMA,
-    title: { text: `SED of ${obj.id}`, subtitle: mag ? 'AB magnitude' : 'flux density' },
+    id: obj.id,
+    units,
+    width: opts.width ?? 560,
+    xDomain,
+    yDomain,
+    masks,
+    spectra,
+    sedLine: lines,
+    modelPhot: model,
+    meas: shown,
+    floor,
+    limits,
+    resid,
+    rDomain,
+    legend: SED_SERIES.filter((s) => present.has(s)),
+    title: `SED of ${obj.id}`,
+    subtitle: mag ? 'AB magnitude' : 'flux density',
     description,
-    config: baseConfig(),
-    vconcat: [main, residPanel],
-    spacing: 6,
-    resolve: { scale: { x: 'shared' } },
-  } as unknown as TopLevelSpec;
+  };
+}
+
+// ---- layout (fixed) -------------------------------------------------------------------------
+
+const PAD = 5;
+const MAIN_H = 280;
+const RESID_H = 100;
+/** Between the main panel and the residual panel. */
+const GAP = 8;
+
+/** A stable, XML-safe prefix for the ids of one figure (clip paths), from its kind and object id (FNV-1a). */
+export function idPrefix(kind: string, id: string): string {
+  let h = 0x811c9dc5;
+  for (const ch of `${kind}\0${id}`) {
+    h ^= ch.codePointAt(0)!;
+    h = Math.imul(h, 0x01000193) >>> 0;
+  }
+  return `${kind}${h.toString(36)}`;
+}
+
+/** The figure's root element: size, accessible name, title and description. */
+export function svgRoot(width: number, height: number, title: string, description: string, body: string): string {
+  return (
+    `<svg xmlns="http://www.w3.org/2000/svg" width="${px(width)}" height="${px(height)}" viewBox="0 0 ${px(width)} ${px(height)}" role="img" aria-label="${escapeXml(description || title)}" class="chart" fill="none" font-family="sans-serif">` +
+    `<title>${escapeXml(title)}</title>${description ? `<desc>${escapeXml(description)}</desc>` : ''}${body}</svg>`
+  );
+}
+
+/** Title (13 px) and an optional subtitle (12 px, muted) at the top left; returns the svg and the height used. */
+export function titleBlock(title: string, subtitle: string | null): { svg: string; height: number } {
+  let svg = `<text x="0" y="10" font-size="13" fill="${COLOURS.ink}">${escapeXml(title)}</text>`;
+  if (subtitle) svg += `<text x="0" y="25" font-size="12" fill="${COLOURS.muted}">${escapeXml(subtitle)}</text>`;
+  return { svg, height: subtitle ? 28 : 13 };
+}
+
+/** A one-row legend of coloured circles and labels; returns the svg and its width. */
+export function legendRow(entries: { label: string; colour: string }[]): { svg: string; width: number } {
+  let x = 0;
+  let sym = '';
+  let text = '';
+  for (const e of entries) {
+    sym += `<path d="${symbolPath('circle', x + 6, 6, 100)}" fill="${e.colour}" stroke="${e.colour}"/>`;
+    text += `<text x="${px(x + 16)}" y="9">${escapeXml(e.label)}</text>`;
+    x += 16 + textWidth(e.label, 11) + 16;
+  }
+  return { svg: `<g stroke-width="1.5" opacity="0.7">${sym}</g><g font-size="11" fill="${COLOURS.ink}">${text}</g>`, width: Math.max(0, x - 16) };
+}
+
+type Mark = { shape: SymbolShape; size: number; fill?: string; stroke?: string; strokeWidth?: number; opacity?: number };
+
+/** Symbols of one series: one element each (translucent ones darken where they overlap, as separate marks do). */
+export function symbols(points: { x: number; y: number }[], m: Mark): string {
+  if (!points.length) return '';
+  let s = `<g${attrs({ fill: m.fill, stroke: m.stroke, 'stroke-width': m.strokeWidth, 'fill-opacity': m.opacity !== undefined && m.fill ? m.opacity : undefined, 'stroke-opacity': m.opacity !== undefined && m.stroke ? m.opacity : undefined })}>`;
+  for (const p of points) if (Number.isFinite(p.x) && Number.isFinite(p.y)) s += `<path d="${symbolPath(m.shape, p.x, p.y, m.size)}"/>`;
+  return s + '</g>';
+}
+
+/** Vertical rules (error bars) of one series as one path. */
+export function rules(items: { x: number; y1: number; y2: number }[], stroke: string, width: number): string {
+  let d = '';
+  for (const r of items) if (Number.isFinite(r.x) && Number.isFinite(r.y1) && Number.isFinite(r.y2)) d += `M${px(r.x)},${px(r.y1)}V${px(r.y2)}`;
+  return d ? `<path d="${d}"${attrs({ stroke, 'stroke-width': width })}/>` : '';
+}
+
+/** The frame of a panel of `w` x `h` px. */
+export function panelFrame(w: number, h: number): string {
+  return `<path d="M0.5,0.5h${px(w)}v${px(h)}h-${px(w)}Z" stroke="${COLOURS.grid}"/>`;
+}
+
+export function clipRect(id: string, w: number, h: number): string {
+  return `<clipPath id="${id}"><rect width="${px(w)}" height="${px(h)}"/></clipPath>`;
+}
+
+/** The SED figure as SVG (see `sedModel`). */
+export function sedSvg(m: SedModel): string {
+  const W = m.width;
+  const mag = m.units === 'mag';
+  const xs = positionScale('log', m.xDomain, [0, W]);
+  const ys: PositionScale = positionScale(mag ? 'linear' : 'log', m.yDomain, [MAIN_H, 0]);
+  const rs = positionScale('linear', m.rDomain, [RESID_H, 0]);
+  const yAxis = axis({ orient: 'left', scale: ys, tickCount: 6, title: mag ? 'AB magnitude' : 'Flux density (µJy)', grid: W, labelOverlap: mag ? 'parity' : 'greedy' });
+  const rAxis = axis({ orient: 'left', scale: rs, tickCount: 5, title: 'Residual / error', labelOverlap: 'parity' });
+  const xAxis = axis({ orient: 'bottom', height: RESID_H, scale: xs, tickCount: 6, title: 'Observed wavelength (µm)', labelOverlap: 'greedy' });
+  const left = Math.ceil(Math.max(yAxis.extent, rAxis.extent)) + PAD;
+  const head = titleBlock(m.title, m.subtitle);
+  const legend = legendRow(m.legend.map((s) => ({ label: s, colour: SERIES_COLOUR[s] })));
+  const legendTop = PAD + head.height + 3;
+  const mainTop = m.legend.length ? legendTop + 33 : PAD + head.height + 8;
+  const residTop = mainTop + MAIN_H + GAP;
+  const height = residTop + RESID_H + Math.ceil(xAxis.extent) + PAD;
+  const lastLabel = xAxis.ticks.filter((t) => t.label).map((t) => xs(t.value) + 0.5 + textWidth(t.label, 11) / 2);
+  const width = left + Math.ceil(Math.max(W + 0.5, legend.width, ...lastLabel)) + PAD;
+  const clip = idPrefix(mag ? 'sm' : 'sf', m.id);
+  const X = (wl: number) => xs(wl);
+  const Y = (v: number) => ys(v);
+
+  // main panel, in the order of drawing
+  let main = panelFrame(W, MAIN_H) + yAxis.grid + yAxis.svg;
+  let clipped = '';
+  for (const r of m.masks) {
+    const x1 = X(r.lo), x2 = X(r.hi);
+    clipped += `<path d="M${px(x1)},0h${px(x2 - x1)}v${MAIN_H}h${px(x1 - x2)}Z" fill="${COLOURS.shade}" opacity="0.5"/>`;
+  }
+  for (const s of m.spectra)
+    clipped += `<path d="${areaPath(s.points.map((p) => X(p.wl)), s.points.map((p) => Y(p.hi)), s.points.map((p) => Y(p.lo)))}" fill="${COLOURS.green}" opacity="0.25"/>`;
+  for (const s of m.spectra)
+    clipped += `<path d="${linePath(s.points.map((p) => X(p.wl)), s.points.map((p) => Y(p.y)))}" stroke="${COLOURS.green}"/>`;
+  if (m.sedLine.length) clipped += `<path d="${linePath(m.sedLine.map((p) => X(p.wl)), m.sedLine.map((p) => Y(p.y)))}" stroke="${COLOURS.blue}" stroke-width="1.5"/>`;
+  clipped += symbols(m.modelPhot.map((p) => ({ x: X(p.wl), y: Y(p.y) })), { shape: 'square', size: 60, stroke: COLOURS.vermillion, strokeWidth: 1.5, opacity: 0.7 });
+  clipped += rules(m.meas.map((p) => ({ x: X(p.wl), y1: Y(p.lo), y2: Y(p.hi) })), COLOURS.ink, 1.2);
+  clipped += symbols(m.meas.map((p) => ({ x: X(p.wl), y: Y(p.y) })), { shape: 'circle', size: 36, fill: COLOURS.ink });
+  clipped += rules(m.floor.map((p) => ({ x: X(p.wl), y1: Y(p.lo), y2: Y(p.hi) })), COLOURS.ink, 1.2);
+  clipped += rules(m.limits.map((p) => ({ x: X(p.wl), y1: Y(p.y), y2: Y(p.tip) })), COLOURS.ink, 1.2);
+  clipped += symbols(m.limits.map((p) => ({ x: X(p.wl), y: Y(p.tip) })), { shape: 'triangle-down', size: 50, fill: COLOURS.ink });
+  if (m.limits.length) {
+    let d = '';
+    for (const p of m.limits) d += `M${px(X(p.wl) - 6)},${px(Y(p.y) - 0.75)}h12v1.5h-12Z`;
+    clipped += `<path d="${d}" fill="${COLOURS.ink}" opacity="0.7"/>`;
+  }
+  main += `<g clip-path="url(#${clip}-m)">${clipped}</g>`;
+  // the floor markers straddle the bottom edge, unclipped
+  main += symbols(m.floor.map((p) => ({ x: X(p.wl), y: Y(p.y) })), { shape: 'circle', size: 40, stroke: COLOURS.ink, strokeWidth: 1.5 });
+
+  let resid = panelFrame(W, RESID_H) + rAxis.svg + xAxis.svg;
+  resid += `<path d="M0,${px(rs(0))}h${W}" stroke="${COLOURS.muted}"/>`;
+  resid += `<path d="M0,${px(rs(-3))}h${W}M0,${px(rs(3))}h${W}" stroke="${COLOURS.grid}" stroke-dasharray="4,3"/>`;
+  resid += `<g clip-path="url(#${clip}-r)">${symbols(m.resid.map((p) => ({ x: X(p.wl), y: rs(p.y) })), { shape: 'circle', size: 30, fill: COLOURS.ink })}</g>`;
+
+  const body =
+    `<defs>${clipRect(`${clip}-m`, W, MAIN_H)}${clipRect(`${clip}-r`, W, RESID_H)}</defs>` +
+    `<g transform="translate(${PAD},${PAD})">${head.svg}</g>` +
+    (m.legend.length ? `<g transform="translate(${left},${legendTop})">${legend.svg}</g>` : '') +
+    `<g transform="translate(${left},${mainTop})">${main}</g>` +
+    `<g transform="translate(${left},${residTop})">${resid}</g>`;
+  return svgRoot(width, height, m.title, m.description, body);
 }
