@@ -27,6 +27,7 @@ import type { SiteContent, OutlierEntry } from './content.ts';
 import type { MergedSummary } from './summarise-partition.ts';
 import { compareWithPrevious, openPrevious, siteChanges, type PreviousOptions } from './changes.ts';
 import { sha256File } from './downloads.ts';
+import { datasetJsonLd, writeMachineReadable, writePaperFiles } from './paper.ts';
 
 export const TOOL = { name: 'posterity', version: '0.1.0' };
 
@@ -172,6 +173,9 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
     if (earlier) await writeFile(join(contentDir, 'changes-objects.json'), JSON.stringify(earlier));
     progress('changes', 1, 1);
   }
+  // the files a paper and an archive ask for (paper.ts)
+  await writeMachineReadable(dl, config, docs, catalogue);
+  await writePaperFiles(dl, config, popResult.relations, { objects: n, ...(previous ? { previous: { version: previous.version, doi: previous.doi, url: previous.url } } : {}) });
   if (evidence.massfunction && opts.massFunctionTruth)
     for (const b of evidence.massfunction.bins) b.truth = opts.massFunctionTruth((b.zLo + b.zHi) / 2);
   if (evidence.massfunction) await writeJson(join(dl, 'massfunction.json'), evidence.massfunction);
@@ -248,6 +252,7 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
   if (evidence.massfunction) await writeJson(join(contentDir, 'massfunction.json'), evidence.massfunction);
 
   const downloads = await writeChecksums(dl);
+  await writeJson(join(contentDir, 'dataset.json'), datasetJsonLd(config, downloads, n));
   const iM = roleIndex(config, 'log_mass');
   const site: SiteContent = {
     title: config.title,

@@ -182,6 +182,14 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     const figureCache = join(cacheDir, 'figures');
     if (existsSync(figureCache)) await cp(figureCache, join(contentDir, 'figures'), { recursive: true });
     const fig = await prerenderFigures(contentDir, {});
+    if (existsSync(join(contentDir, 'changes.json'))) {
+      // the comparison's figures (charts/changes.ts)
+      const { changesFigureJobs } = await import('../charts/changes.ts');
+      const { runFigureJobs } = await import('../charts/prerender.ts');
+      const c = await runFigureJobs(join(contentDir, 'figures'), changesFigureJobs(JSON.parse(readFileSync(join(contentDir, 'changes.json'), 'utf8'))));
+      fig.rendered += c.rendered;
+      fig.cached += c.cached;
+    }
     figures = { rendered: fig.rendered, reused: fig.cached };
     opts.log?.(`figures: ${fig.rendered} rendered, ${fig.cached} reused from the previous build`);
     opts.progress?.('figures', 1, 1);
