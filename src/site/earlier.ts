@@ -8,9 +8,14 @@ import { rel } from './paths.ts';
  * made relative to the page at `path`. Null when the earlier release's address is unknown.
  */
 export function earlierPage(url: string | undefined, path: string, id: string): string | null {
+  return earlierLink(url, path, `objects/${slugOf(id)}/`);
+}
+
+/** A page of the earlier release (`sub` below its root, '' for its release page), as `earlierPage` resolves it. */
+export function earlierLink(url: string | undefined, path: string, sub = ''): string | null {
   if (!url) return null;
   const base = url.endsWith('/') ? url : `${url}/`;
-  const target = `${base}objects/${slugOf(id)}/`;
+  const target = `${base}${sub}`;
   if (/^[a-z][a-z0-9+.-]*:/i.test(base) || base.startsWith('/')) return target;
   return rel(path, '/') + target.replace(/^\.\//, '');
 }

@@ -73,6 +73,12 @@ describe.runIf(hasChromium())('the changes page in the browser', () => {
     expect(await v.page.locator('main svg[role=img]').count()).toBe(changes.parameters.length);
     expect(await v.page.textContent('.draft')).toContain(`${plan.added.length} added, ${plan.removed.length} removed`);
     await v.page.close();
+    // the release page carries schema.org Dataset metadata for dataset search engines
+    const home = await visit(browser, base);
+    const ld = JSON.parse((await home.page.textContent('script[type="application/ld+json"]'))!);
+    expect(ld).toMatchObject({ '@type': 'Dataset', version: '1.0.0', license: 'https://creativecommons.org/licenses/by/4.0/' });
+    expect(ld.distribution.map((d: { contentUrl: string }) => d.contentUrl)).toContain('./downloads/changes.json');
+    await home.page.close();
   });
 
   it('loads cleanly and every relative link answers, the earlier release included', async () => {
