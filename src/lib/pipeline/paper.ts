@@ -312,6 +312,6 @@ export function datasetJsonLd(config: ReleaseConfig, downloads: DownloadEntry[],
     size: `${objects} objects`,
     distribution: downloads
       .filter((d) => d.file !== 'SHA256SUMS')
-      .map((d) => ({ '@type': 'DataDownload', name: d.file, encodingFormat: MEDIA_TYPES[ext(d.file)] ?? d.format, contentUrl: `${base}downloads/${d.file}`, contentSize: `${d.bytes} B`, description: d.notes || d.format })),
+      .map((d) => ({ '@type': 'DataDownload', name: d.file, encodingFormat: MEDIA_TYPES[ext(d.file)] ?? d.format, contentUrl: `${base}downloads/${d.file}`, description: d.notes || d.format })),
   };
 }
