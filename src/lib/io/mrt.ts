@@ -187,7 +187,7 @@ export function byteByByte(layout: MrtLayoutColumn[], dataFile: string): string[
     const bytes = c.start === c.end ? String(c.end).padStart(bytesW) : `${String(c.start).padStart(endW)}-${String(c.end).padStart(endW)}`;
     const head = `${bytes} ${c.format.padEnd(fmtW)} ${c.spec.unit.padEnd(unitW)} ${(c.spec.label ?? c.spec.name).padEnd(labelW)} `;
     const expl = (c.nullable ? '? ' : '') + c.spec.explanation;
-    const parts = wrap(expl, Math.max(20, 80 - indent));
+    const parts = wrap(expl, Math.max(20, 80 - indent - 2));
     lines.push(head + parts[0]);
     // continuation lines start with spaces under the explanation column
     for (const p of parts.slice(1)) lines.push(' '.repeat(indent + 2) + p);
