@@ -17,6 +17,7 @@ import { truthForBuild } from './demo/truth.ts';
 const USAGE = `usage:
   posterity check <bundle-folder>
   posterity build <bundle-folder> --out <dir> [--summaries <merged-dir>] [--quiet]
+      [--previous <earlier-site-or-downloads> [--shift-threshold 2] [--match-radius 1] [--previous-url URL]] [--replace]
   posterity demo [--out dist] [--bundle demo-bundle] [--serve] [--port 4321] [--quiet]
   posterity serve <dir> [--port 4321] [--base /]
   posterity summarise <bundle-folder> --part I --of N --out <partials-dir>
@@ -36,7 +37,7 @@ function parseArgs(argv: string[]): Args {
     if (a.startsWith('--')) {
       const [k, v] = a.slice(2).split('=', 2);
       if (v !== undefined) flags[k] = v;
-      else if (['serve', 'quiet', 'help'].includes(k)) flags[k] = true;
+      else if (['serve', 'quiet', 'help', 'replace'].includes(k)) flags[k] = true;
       else if (i + 1 < argv.length && !argv[i + 1].startsWith('--')) flags[k] = argv[++i];
       else flags[k] = true;
     } else positional.push(a);
@@ -94,11 +95,28 @@ async function cmdCheck(args: Args): Promise<number> {
   }
 }
 
-async function cmdBuild(bundle: string, out: string, quiet: boolean, truthFile?: string, summaries?: string): Promise<number> {
+/** Release options of `build` (and the demo): the earlier release to compare with, and --replace. */
+interface ReleaseFlags {
+  previous?: { path: string; thresholdSigma?: number; matchRadiusArcsec?: number; url?: string };
+  replace?: boolean;
+}
+
+/** --previous and its companions, --replace; a string naming the bad flag when one is malformed. */
+function releaseFlags(flags: Args['flags']): ReleaseFlags | string {
+  const out: ReleaseFlags = { replace: flags.replace === true };
+  const num = (k: string) => (typeof flags[k] === 'string' && Number.isFinite(Number(flags[k])) && Number(flags[k]) >= 0 ? Number(flags[k]) : undefined);
+  for (const k of ['shift-threshold', 'match-radius']) if (flags[k] !== undefined && num(k) === undefined) return `--${k} needs a number >= 0`;
+  if (flags.previous === true) return '--previous needs a folder';
+  if (typeof flags.previous === 'string')
+    out.previous = { path: resolve(flags.previous), thresholdSigma: num('shift-threshold'), matchRadiusArcsec: num('match-radius'), ...(typeof flags['previous-url'] === 'string' ? { url: flags['previous-url'] } : {}) };
+  return out;
+}
+
+async function cmdBuild(bundle: string, out: string, quiet: boolean, truthFile?: string, summaries?: string, release: ReleaseFlags = {}): Promise<number> {
   try {
     // a mock's truth (the demo's truth.json), shown beside the fits
     const { truth, massFunctionTruth } = truthFile ? truthForBuild(truthFile) : {};
-    const s = await buildRelease(resolve(bundle), { out, progress: progressPrinter(quiet), truth, massFunctionTruth, summaries });
+    const s = await buildRelease(resolve(bundle), { out, progress: progressPrinter(quiet), truth, massFunctionTruth, summaries, ...release });
     if (!quiet) {
       if (s.warnings.length) {
         process.stderr.write(`${s.warnings.length} warning(s):\n`);
@@ -149,15 +167,29 @@ export async function main(argv: string[]): Promise<number> {
         process.stderr.write(USAGE + '\n');
         return 2;
       }
-      return cmdBuild(dir, out, quiet, typeof args.flags.truth === 'string' ? args.flags.truth : undefined, typeof args.flags.summaries === 'string' ? args.flags.summaries : undefined);
+      const release = releaseFlags(args.flags);
+      if (typeof release === 'string') {
+        process.stderr.write(`${release}\n${USAGE}\n`);
+        return 2;
+      }
+      return cmdBuild(dir, out, quiet, typeof args.flags.truth === 'string' ? args.flags.truth : undefined, typeof args.flags.summaries === 'string' ? args.flags.summaries : undefined, release);
     }
     case 'demo': {
       const bundle = resolve(typeof args.flags.bundle === 'string' ? args.flags.bundle : join(PROJECT_ROOT, 'demo-bundle'));
       const out = resolve(typeof args.flags.out === 'string' ? args.flags.out : join(PROJECT_ROOT, 'dist'));
       const { generateDemoBundle } = await import('./demo/generate.ts');
+      const { derivePreviousBundle, PREVIOUS_VERSION } = await import('./demo/previous.ts');
       if (!quiet) process.stderr.write(`generating the demo bundle in ${bundle}\n`);
       await generateDemoBundle(bundle, {});
-      const code = await cmdBuild(bundle, out, quiet, join(bundle, 'truth.json'));
+      // the earlier release 0.9.0 beside each (<bundle>-0.9.0, <out>-0.9.0), then 1.0.0 compared with it;
+      // the demo's folders are its own, so each run replaces them
+      const prevBundle = `${bundle}-${PREVIOUS_VERSION}`;
+      const prevOut = `${out}-${PREVIOUS_VERSION}`;
+      if (!quiet) process.stderr.write(`deriving the earlier release ${PREVIOUS_VERSION} in ${prevBundle}\n`);
+      await derivePreviousBundle(bundle, prevBundle);
+      const prevCode = await cmdBuild(prevBundle, prevOut, quiet, join(bundle, 'truth.json'), undefined, { replace: true });
+      if (prevCode !== 0) return prevCode;
+      const code = await cmdBuild(bundle, out, quiet, join(bundle, 'truth.json'), undefined, { replace: true, previous: { path: prevOut } });
       if (code !== 0 || !args.flags.serve) return code;
       return serve(out, Number(args.flags.port ?? 4321), '/');
     }

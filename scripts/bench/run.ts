@@ -138,6 +138,7 @@ export async function main(argv: string[]): Promise<number> {
     for (const n of sizes) await run(`build.${n}`, 'build', [bundlePaths(cache, n).full], 3 * 3600);
   }
   if (!only || only === 'pages') await run('pages', 'pages', [pagesN, '10'], 1800);
+  if (!only || only === 'changes') await run('changes', 'changes', ['100000'], 1800);
 
   // ---- the report ------------------------------------------------------------------------
   const get = (key: string): Result | null => (isErr(raw[key]) || !raw[key] ? null : (raw[key] as Result));
@@ -249,6 +250,16 @@ export async function main(argv: string[]): Promise<number> {
       target: '',
       status: 'info',
       note: `corner data JSON: ${(k.chartJsonBytesPerObject / 1024).toFixed(0)} KB per object`,
+    });
+  }
+  if (!only || only === 'changes') {
+    const ch = get('changes');
+    rows.push({
+      what: 'comparison with an earlier release, 10^5 objects x 8 parameters (streamed)',
+      value: ch ? `${f(ch.seconds, 2)} s, ${f(ch.ratio)}x a decode of the same columns (${f(ch.scanSeconds, 2)} s)` : 'n/a',
+      target: 'info',
+      status: ch ? 'info' : 'failed',
+      note: ch ? `synthetic catalogues: ${ch.counts.added} added, ${ch.counts.removed} removed, ${ch.counts.renamed} renamed by position; peak memory in the task's process` : undefined,
     });
   }
   if (!only || only === 'pages') {

@@ -308,6 +308,7 @@ export async function runTask(name: string, args: string[]): Promise<Record<stri
     case 'pipeline': return pipeline(args[0], args[1]);
     case 'build': return build(args[0]);
     case 'pages': return (await import('./pages.ts')).pages(args[0], args[1]);
+    case 'changes': return (await import('./changes.ts')).changes(args[0]);
     default: throw new Error(`unknown bench task ${name}`);
   }
 }

@@ -59,11 +59,12 @@ export function buildRelease(t: DemoTruth, params: ParamSpec[]): ReleaseConfig {
       ].join('\n'),
     },
     licence: 'CC-BY-4.0',
+    authors: [{ name: `${FIELD.name} Collaboration` }],
     changelog: [
       { version: '0.9.0', date: '2026-06-15', notes: 'Internal preview to the collaboration: objects, samples and photometry only.' },
       { version: VERSION, date: RELEASE_DATE, notes: 'First public release: adds spectra for a tenth of the objects, model SEDs, the dust-mass relation, and corrected photometric errors in the shallow field corners.' },
     ],
-    survey: { areaDeg2: t.areaDeg2, magLimit: MAG_LIMIT, magBand: SELECTION_BAND },
+    survey: { name: FIELD.name, areaDeg2: t.areaDeg2, magLimit: MAG_LIMIT, magBand: SELECTION_BAND },
     cosmology: { H0: t.cosmology.H0, Om0: t.cosmology.Om0 },
     units: { flux: 'uJy', wavelength: 'um' },
     model: {

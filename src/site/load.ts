@@ -141,3 +141,19 @@ export function hasDownload(path: string): boolean {
   if (path.split('/').some((p) => p === '..' || p === '')) return false;
   return existsSync(join(contentDir(), 'downloads', ...path.split('/')));
 }
+
+/** The comparison with an earlier release (`changes.json`, lists cut for the site), or null when none was made. */
+export function loadChanges(): import('../lib/pipeline/changes-content.ts').ChangesContent | null {
+  return cached('changes', () => read<import('../lib/pipeline/changes-content.ts').ChangesContent>('changes.json', false));
+}
+
+/** An object's values in the earlier release (`changes-objects.json`), or null when it was not in it or none was compared. */
+export function loadPreviousObject(slug: string): import('../lib/pipeline/changes-content.ts').PreviousObject | null {
+  const all = cached('changes-objects', () => read<Record<string, import('../lib/pipeline/changes-content.ts').PreviousObject>>('changes-objects.json', false));
+  return all && Object.prototype.hasOwnProperty.call(all, slug) ? all[slug] : null;
+}
+
+/** schema.org Dataset metadata of the release (`dataset.json`, JSON-LD), or null in older content. */
+export function loadDatasetJsonLd(): Record<string, unknown> | null {
+  return cached('dataset', () => read<Record<string, unknown>>('dataset.json', false));
+}

@@ -6,6 +6,8 @@
  */
 import type { ObjectContent, ParamRow } from '../lib/pipeline/content.ts';
 import type { ObjectFigures } from '../lib/charts/figures.ts';
+import type { PreviousObject } from '../lib/pipeline/changes-content.ts';
+import { describeFlags } from '../lib/core/flags.ts';
 import { html, raw, type Html } from './html.ts';
 import { digitsFor, interval, num, range, sig } from './format.ts';
 import { PATHS, rel } from './paths.ts';
@@ -18,6 +20,18 @@ export interface ObjectPageOptions {
   /** The release's prior-edge threshold (fraction of posterior mass near a bound). */
   priorEdgeMass: number;
   figures: ObjectFigures;
+  /** The object's values in the earlier release it was compared with, when it was in it. */
+  earlier?: EarlierValues | null;
+}
+
+export interface EarlierValues {
+  values: PreviousObject;
+  /** Its page in the earlier release (a URL relative to this page or absolute), when that release's address is known. */
+  page: string | null;
+  /** The changes page, relative to this page. */
+  changesPage: string;
+  /** Shifts beyond this many sigma are marked. */
+  threshold: number;
 }
 
 const pct = (f: number) => `${(f * 100).toFixed(f >= 0.1 ? 0 : 1)}%`;
@@ -36,6 +50,22 @@ function paramTable(o: ObjectContent, priorEdgeMass: number): Html {
     return html`<tr><th scope="row">${p.label}</th><td>${p.unit || '—'}</td><td class="n">${interval(p.p50, p.p16, p.p84, d)}</td><td class="n">${range(p.p025, p.p975, d)}</td><td class="n">${so ? '—' : num(p.mean, d)}</td><td class="n">${so ? '—' : num(p.std, d)}</td><td class="n">${so ? '—' : range(p.hdi68[0], p.hdi68[1], d)}</td><td class="n">${so ? '—' : range(p.hdi95[0], p.hdi95[1], d)}</td>${showTruth ? html`<td class="n">${p.truth !== undefined ? num(p.truth, d) : '—'}</td>` : ''}<td>${notes}</td></tr>`;
   });
   return html`<div class="table-wrap"><table class="params"><caption>Parameters of ${o.id}<span class="sub">Notes flag a posterior piled against a bound of the prior (more than ${pct(priorEdgeMass)} of its mass near the bound) or with more than one mode. Median with the central 68% (16th–84th percentile) and 95% (2.5th–97.5th) credible intervals of the weighted posterior; HDI is the highest-density interval.${so ? ' Only percentile summaries were supplied for this object, so mean, standard deviation and HDIs are not from draws.' : ''}</span></caption><thead><tr><th scope="col">Parameter</th><th scope="col">Unit</th><th scope="col" class="n">Median ± 68%</th><th scope="col" class="n">95% interval</th><th scope="col" class="n">Mean</th><th scope="col" class="n">Std</th><th scope="col" class="n">68% HDI</th><th scope="col" class="n">95% HDI</th>${showTruth ? html`<th scope="col" class="n">True value</th>` : ''}<th scope="col">Notes</th></tr></thead><tbody>${rows}</tbody></table></div>`;
+}
+
+/** Posterior medians in the earlier release beside this release's, with the shift in units of the combined uncertainty. */
+function earlierSection(o: ObjectContent, e: EarlierValues): Html {
+  const v = e.values;
+  const flags = describeFlags(v.flags);
+  const rows = v.params
+    .map((p) => ({ p, now: o.params.find((q) => q.name === p.name) }))
+    .filter((r) => r.now)
+    .map(({ p, now }) => {
+      const shift = p.shiftSigma === null ? '—' : Math.abs(p.shiftSigma) > e.threshold ? html`<span class="badge flag">${num(p.shiftSigma, 1)}σ</span>` : `${num(p.shiftSigma, 1)}σ`;
+      return html`<tr><th scope="row">${now!.label}</th><td class="n">${p.previous ? interval(p.previous.median, p.previous.lo, p.previous.hi) : '—'}</td><td class="n">${interval(now!.median, now!.lo, now!.hi)}</td><td class="n">${shift}</td></tr>`;
+    });
+  const where = v.renamed ? html`In ${v.version} this object was <span class="mono">${v.id}</span> (matched by position).` : html`This object was in release ${v.version} under the same id.`;
+  const page = e.page ? html`<a href="${e.page}">Its page in ${v.version}</a>` : html`The ${v.version} values are below`;
+  return html`<section aria-labelledby="h-earlier"><h2 id="h-earlier">Values in release ${v.version}</h2><p>${where} ${page}; <a href="${e.changesPage}">what changed in the whole release</a>. Flags in ${v.version}: ${flags.length ? flags.join(', ') : 'none'}.</p><div class="table-wrap"><table><caption>${o.id}: ${v.version} against this release <span class="sub">Posterior medians with 68% intervals; the shift is in units of the combined uncertainty, marked beyond ±${e.threshold}σ.</span></caption><thead><tr><th scope="col">Parameter</th><th scope="col" class="n">In ${v.version}</th><th scope="col" class="n">Now</th><th scope="col" class="n">Shift</th></tr></thead><tbody>${rows}</tbody></table></div></section>`;
 }
 
 function figure(svg: string | null, caption: string): Html {
@@ -82,5 +112,5 @@ export function objectMainHtml(o: ObjectContent, opts: ObjectPageOptions): strin
     fact('Best-fit χ²', o.chi2 === null ? '—' : `${num(o.chi2, 2)}${o.dof !== null ? ` for ${o.dof} degrees of freedom` : ''}`),
     fact('χ² probability', o.chi2Pvalue === null ? '—' : sig(o.chi2Pvalue, 3)),
     fact('Flags', o.flags === 0 ? 'none' : `bitmask ${o.flags}`),
-  ]}</dl></section><section aria-labelledby="h-flags"><h2 id="h-flags">Diagnostics</h2>${flags}${o.summariesOnly ? html`<p class="note">This object has percentile summaries only; there is no corner plot and its mean, spread and effective sample size are not computed from draws.</p>` : ''}</section></div><h2 id="params">Posterior summaries</h2>${paramTable(o, opts.priorEdgeMass)}<h2 id="sed">Spectral energy distribution</h2>${sed}<h2 id="posterior">Posterior distribution</h2>${corner}${relations}<div class="grid2"><section aria-labelledby="h-nb"><h2 id="h-nb">Neighbours on the sky</h2>${neighbours}</section><section aria-labelledby="h-dl"><h2 id="h-dl">Data for this object</h2><ul>${draws}${phot}<li><a href="${to(PATHS.downloads)}">Whole-catalogue downloads</a></li></ul>${extra}</section></div>`.text;
+  ]}</dl></section><section aria-labelledby="h-flags"><h2 id="h-flags">Diagnostics</h2>${flags}${o.summariesOnly ? html`<p class="note">This object has percentile summaries only; there is no corner plot and its mean, spread and effective sample size are not computed from draws.</p>` : ''}</section></div><h2 id="params">Posterior summaries</h2>${paramTable(o, opts.priorEdgeMass)}${opts.earlier ? earlierSection(o, opts.earlier) : ''}<h2 id="sed">Spectral energy distribution</h2>${sed}<h2 id="posterior">Posterior distribution</h2>${corner}${relations}<div class="grid2"><section aria-labelledby="h-nb"><h2 id="h-nb">Neighbours on the sky</h2>${neighbours}</section><section aria-labelledby="h-dl"><h2 id="h-dl">Data for this object</h2><ul>${draws}${phot}<li><a href="${to(PATHS.downloads)}">Whole-catalogue downloads</a></li></ul>${extra}</section></div>`.text;
 }

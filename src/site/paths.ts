@@ -17,6 +17,7 @@ export const PATHS = Object.freeze({
   massFunction: '/massfunction/',
   columns: '/columns/',
   downloads: '/downloads/',
+  changes: '/changes/',
   /** A file under `downloads/` (path below it, forward slashes). */
   download: (file: string) => `/downloads/${file.replace(/^\/+/, '')}`,
   /** A file at a site-root-relative path such as `downloads/objects/x/draws.csv`. */

@@ -125,6 +125,12 @@ export const Quality = z
 
 export const Survey = z
   .object({
+    /**
+     * The survey's name, the same in every release of it (titles may change between releases):
+     * a comparison with an earlier release (`--previous`) refuses one whose name differs. Without
+     * it on either side, the titles are compared instead.
+     */
+    name: nonEmpty.optional(),
     /** Survey area in square degrees (for volumes). */
     areaDeg2: z.number().positive(),
     /** Magnitude limit of the selection (AB), used for mass completeness. */
@@ -140,6 +146,20 @@ export const Citation = z
     bibtex: nonEmpty,
   })
   .strict();
+
+/** A creator of the release: a person (family and given names) or an organisation (name). */
+export const Author = z.union([
+  z
+    .object({
+      familyNames: nonEmpty,
+      givenNames: nonEmpty.optional(),
+      /** ORCID iD as https://orcid.org/0000-0000-0000-0000. */
+      orcid: z.string().regex(/^https:\/\/orcid\.org\/\d{4}-\d{4}-\d{4}-\d{3}[\dX]$/, 'an ORCID iD as https://orcid.org/0000-0000-0000-0000').optional(),
+      affiliation: nonEmpty.optional(),
+    })
+    .strict(),
+  z.object({ name: nonEmpty, affiliation: nonEmpty.optional() }).strict(),
+]);
 
 export const ChangelogEntry = z
   .object({
@@ -170,6 +190,18 @@ export const Release = z
     citation: Citation,
     licence: nonEmpty,
     doi: z.string().optional(),
+    /**
+     * Creators of the release, in citation order, for CITATION.cff and the DataCite and schema.org
+     * metadata. Without it they are read from the BibTeX author field.
+     */
+    authors: z.array(Author).min(1).optional(),
+    /** Who publishes the release (DataCite's publisher); default: the first author organisation, else the survey's name. */
+    publisher: nonEmpty.optional(),
+    /**
+     * The absolute address where this release's site is published (ending in /): makes the
+     * metadata's links absolute, and lets a later release link its object pages back to this one.
+     */
+    url: z.string().regex(/^https?:\/\/[^\s]+\/$/, 'an absolute http(s) address ending in /').optional(),
     changelog: z.array(ChangelogEntry).default([]),
     survey: Survey,
     cosmology: Cosmology,
@@ -203,3 +235,4 @@ export type RelationConfig = z.infer<typeof Relation>;
 export type TableRefConfig = z.infer<typeof TableRef>;
 export type TableName = keyof z.infer<typeof Tables>;
 export type QualityConfig = z.infer<typeof Quality>;
+export type AuthorConfig = z.infer<typeof Author>;

@@ -29,6 +29,13 @@ export const FORMAT_NOTES: Record<string, { format: string; notes: string }> = {
   'photometry.csv': { format: 'CSV', notes: 'photometry as supplied, with flux densities in microjansky and pivot wavelengths in micron' },
   'spectra.csv.gz': { format: 'CSV, gzip', notes: 'observed spectra, in microjansky and micron, with masks and model fluxes' },
   SHA256SUMS: { format: 'text', notes: 'SHA-256 of every file under downloads/, as written by sha256sum' },
+  'changes.json': { format: 'JSON', notes: 'what changed since the earlier release: objects added, removed and renamed, shifts of the medians, flags raised and cleared, relation fits per bin' },
+  'catalogue-mrt.txt': { format: 'machine-readable table (byte-by-byte described ASCII)', notes: 'the catalogue as one file for a journal: title, authors, byte-by-byte description (format, units, labels, explanations), notes and fixed-width rows; values rounded to the precision their errors support' },
+  'cds/ReadMe': { format: 'byte-by-byte ReadMe (data-centre standard)', notes: 'describes cds/catalogue.dat for an archive deposit: file summary, byte-by-byte description, notes' },
+  'cds/catalogue.dat': { format: 'fixed-width ASCII', notes: 'the catalogue rows that cds/ReadMe describes' },
+  'relations.tex': { format: 'LaTeX', notes: 'the relation fits per redshift bin and method (a, b, s with asymmetric 68% errors), one table per relation, base LaTeX only' },
+  'CITATION.cff': { format: 'Citation File Format 1.2.0 (YAML)', notes: 'how to cite this release: authors, title, version, date, licence, identifiers' },
+  'datacite.json': { format: 'JSON (DataCite Metadata Schema 4)', notes: 'metadata for a DOI deposit: creators, titles, publisher, year, resource type, version, rights, related earlier version' },
 };
 
 export async function sha256File(path: string): Promise<string> {
@@ -149,7 +156,7 @@ export async function writeChecksums(dir: string): Promise<DownloadEntry[]> {
     const rel = relative(dir, f).split('\\').join('/');
     const sum = await sha256File(f);
     lines.push(`${sum}  ${rel}`);
-    if (!rel.includes('/')) {
+    if (!rel.includes('/') || FORMAT_NOTES[rel]) {
       const info = FORMAT_NOTES[rel] ?? { format: rel.split('.').slice(1).join('.'), notes: '' };
       entries.push({ file: rel, bytes: (await stat(f)).size, sha256: sum, ...info });
     }

@@ -25,6 +25,9 @@ import { readCachedSummary, summaryKey, writeCachedSummary } from './summary-cac
 import { siteOverview } from './overview.ts';
 import type { SiteContent, OutlierEntry } from './content.ts';
 import type { MergedSummary } from './summarise-partition.ts';
+import { compareWithPrevious, openPrevious, siteChanges, type PreviousOptions } from './changes.ts';
+import { sha256File } from './downloads.ts';
+import { datasetJsonLd, writeMachineReadable, writePaperFiles } from './paper.ts';
 
 export const TOOL = { name: 'posterity', version: '0.1.0' };
 
@@ -44,6 +47,8 @@ export interface PipelineOptions {
    * used up to the object-page limit (above it the corner data would be copied for every object).
    */
   summaryCache?: string;
+  /** An earlier release to compare with (`changes.ts`): writes downloads/changes.json and the /changes/ page's content. */
+  previous?: PreviousOptions;
 }
 
 export interface PipelineResult {
@@ -62,6 +67,8 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
   const streamSamples = !bundle.samples && !!bundle.config.tables.samples;
   const { config, objects } = bundle;
   const n = objects.n;
+  // refuse an earlier release that cannot be compared before anything expensive runs
+  const previous = opts.previous ? openPrevious(opts.previous, config) : null;
   progress('load', 1, 1);
   const cosmo = makeCosmology(config.cosmology);
   const contentDir = opts.contentDir;
@@ -158,6 +165,17 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
       bins: r.bins.map((b) => ({ zLo: b.zLo, zHi: b.zHi, n: b.n, ...(b.nEff !== undefined ? { nEff: b.nEff } : {}), completenessLogM: b.completenessLogM, fits: b.fits, running: b.running })),
     })),
   });
+  if (previous) {
+    progress('changes', 0, 1);
+    const { changes, objects: earlier } = await compareWithPrevious(previous, { config, catalogue, relations: popResult.relations, objectLookup: n <= config.site.objectPageLimit }, sha256File);
+    await writeJson(join(dl, 'changes.json'), changes);
+    await writeJson(join(contentDir, 'changes.json'), siteChanges(changes));
+    if (earlier) await writeFile(join(contentDir, 'changes-objects.json'), JSON.stringify(earlier));
+    progress('changes', 1, 1);
+  }
+  // the files a paper and an archive ask for (paper.ts)
+  await writeMachineReadable(dl, config, docs, catalogue);
+  await writePaperFiles(dl, config, popResult.relations, { objects: n, ...(previous ? { previous: { version: previous.version, doi: previous.doi, url: previous.url } } : {}) });
   if (evidence.massfunction && opts.massFunctionTruth)
     for (const b of evidence.massfunction.bins) b.truth = opts.massFunctionTruth((b.zLo + b.zHi) / 2);
   if (evidence.massfunction) await writeJson(join(dl, 'massfunction.json'), evidence.massfunction);
@@ -234,6 +252,7 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
   if (evidence.massfunction) await writeJson(join(contentDir, 'massfunction.json'), evidence.massfunction);
 
   const downloads = await writeChecksums(dl);
+  await writeJson(join(contentDir, 'dataset.json'), datasetJsonLd(config, downloads, n));
   const iM = roleIndex(config, 'log_mass');
   const site: SiteContent = {
     title: config.title,

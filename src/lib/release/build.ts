@@ -5,12 +5,13 @@
  * output byte for byte as it was.
  */
 import { spawn } from 'node:child_process';
-import { existsSync, rmSync } from 'node:fs';
+import { existsSync, readFileSync, rmSync } from 'node:fs';
 import { cp, mkdir, rename, rm } from 'node:fs/promises';
 import { basename, dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { runPipeline, type PipelineOptions } from '../pipeline/run.ts';
 import { PosterityError } from '../core/problems.ts';
+import { publishedVersion, sameContent } from './immutable.ts';
 
 export const PROJECT_ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
 
@@ -24,6 +25,14 @@ export interface BuildOptions {
   keepContent?: string;
   /** Folder of merged summaries (`posterity merge --out`), used instead of summarising again. */
   summaries?: string;
+  /** An earlier release to compare with: publishes /changes/ and downloads/changes.json. */
+  previous?: PipelineOptions['previous'];
+  /**
+   * Overwrite an output folder that holds a published version (another version, or this one
+   * with different content). Without it such a build is refused, so a cited version never
+   * silently changes.
+   */
+  replace?: boolean;
 }
 
 export interface BuildSummary {
@@ -123,12 +132,38 @@ async function readSummaries(dir: string): Promise<NonNullable<PipelineOptions['
   return { merged: await mergePartials(files), source: files.length === 1 ? files[0] : resolve(dir) };
 }
 
+/** The version a bundle's release.json declares, or null when it cannot be read (the pipeline reports why). */
+function bundleVersion(bundleDir: string): string | null {
+  try {
+    const v = (JSON.parse(readFileSync(join(bundleDir, 'release.json'), 'utf8')) as { version?: unknown }).version;
+    return typeof v === 'string' ? v : null;
+  } catch {
+    return null;
+  }
+}
+
+function replaceProblem(out: string, held: string, building: string) {
+  return {
+    severity: 'error' as const,
+    file: join(out, 'downloads', 'release.json'),
+    field: 'version',
+    message: `the output folder holds the published version ${held}; building version ${building} into it would replace it: build each version into a folder of its own, or pass --replace`,
+    expected: `an output folder without a published version, or one holding ${building}`,
+    got: held,
+  };
+}
+
 export async function buildRelease(bundleDir: string, opts: BuildOptions): Promise<BuildSummary> {
   const t0 = Date.now();
   const out = resolve(opts.out);
   const log = opts.log ?? (() => {});
   const stage = join(dirname(out), `.posterity-tmp-${basename(out)}-${process.pid}`);
   let figures = { rendered: 0, reused: 0 };
+  // a published version is never replaced unless asked: a different version is refused before
+  // the build, the same version with different content once the new content is known
+  const held = opts.replace ? null : publishedVersion(out);
+  const version = held === null ? null : bundleVersion(bundleDir);
+  if (held !== null && version !== null && held !== version) throw new PosterityError(replaceProblem(out, held, version));
   installSignalHandlers();
   staging.add(stage);
   try {
@@ -139,7 +174,7 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     const summaries = opts.summaries ? await readSummaries(opts.summaries) : undefined;
     const cacheDir = join(dirname(out), `.posterity-cache-${basename(out)}`);
     const summaryCache = join(cacheDir, 'summaries');
-    const result = await runPipeline(resolve(bundleDir), { contentDir, downloadsDir, progress: opts.progress, truth: opts.truth, massFunctionTruth: opts.massFunctionTruth, summaries, summaryCache });
+    const result = await runPipeline(resolve(bundleDir), { contentDir, downloadsDir, progress: opts.progress, truth: opts.truth, massFunctionTruth: opts.massFunctionTruth, summaries, summaryCache, previous: opts.previous });
     opts.log?.(`summaries: ${result.summaries === 'reused' ? 'reused from the previous build (samples, objects, photometry and summary settings unchanged)' : result.summaries === 'given' ? 'given (merged partials)' : 'computed'}`);
     opts.progress?.('figures', 0, 1);
     const { prerenderFigures } = await import('../charts/prerender.ts');
@@ -147,6 +182,14 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     const figureCache = join(cacheDir, 'figures');
     if (existsSync(figureCache)) await cp(figureCache, join(contentDir, 'figures'), { recursive: true });
     const fig = await prerenderFigures(contentDir, {});
+    if (existsSync(join(contentDir, 'changes.json'))) {
+      // the comparison's figures (charts/changes.ts)
+      const { changesFigureJobs } = await import('../charts/changes.ts');
+      const { runFigureJobs } = await import('../charts/prerender.ts');
+      const c = await runFigureJobs(join(contentDir, 'figures'), changesFigureJobs(JSON.parse(readFileSync(join(contentDir, 'changes.json'), 'utf8'))));
+      fig.rendered += c.rendered;
+      fig.cached += c.cached;
+    }
     figures = { rendered: fig.rendered, reused: fig.cached };
     opts.log?.(`figures: ${fig.rendered} rendered, ${fig.cached} reused from the previous build`);
     opts.progress?.('figures', 1, 1);
@@ -155,6 +198,20 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     await run(process.execPath, [join(PROJECT_ROOT, 'node_modules/astro/astro.js'), 'build', '--silent'], { POSTERITY_CONTENT: contentDir, POSTERITY_OUT: siteDir, ASTRO_TELEMETRY_DISABLED: '1' }, log);
     opts.progress?.('site', 1, 1);
     if (!existsSync(join(siteDir, 'downloads', 'SHA256SUMS'))) throw new Error('the site build did not copy the downloads');
+    if (held !== null) {
+      const built = result.bundle.config.version;
+      if (held !== built) throw new PosterityError(replaceProblem(out, held, built));
+      const differs = await sameContent(siteDir, out);
+      if (differs !== null)
+        throw new PosterityError({
+          severity: 'error',
+          file: join(out, 'downloads', 'release.json'),
+          field: 'version',
+          message: `version ${built} is already published in this folder with other content (${differs}); a cited version must not change: give this build a new version, or pass --replace to overwrite it`,
+          expected: 'the same bytes as the published output',
+          got: differs,
+        });
+    }
     if (opts.keepContent) {
       await rm(opts.keepContent, { recursive: true, force: true });
       await rename(contentDir, resolve(opts.keepContent));
