@@ -117,7 +117,7 @@ export function loadOutliers(): OutlierEntry[] | null {
 export function loadObjectFigures(slug: string): ObjectFigures {
   if (idOfSlug(slug) === null) throw new Error(`Posterity site: "${slug}" is not an object slug`);
   const file = join(contentDir(), 'figures', ...FIGURES.objectFigures(slug).split('/'));
-  if (!existsSync(file)) return { sed: null, sedMag: null, corner: null };
+  if (!existsSync(file)) return { sed: null, sedMag: null, posterior: null };
   return JSON.parse(readFileSync(file, 'utf8')) as ObjectFigures;
 }
 

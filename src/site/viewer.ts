@@ -1,7 +1,7 @@
 /**
  * The object viewer (browser only, viewer mode): finds one object's shard through the slug
  * lookup (`viewer-data.ts`), then renders the object page in the browser: position and fit,
- * flags in words, the posterior table, the SED and corner plots drawn with Vega from the same
+ * flags in words, the posterior table, the SED and the posterior matrix drawn by the same
  * spec builders the prerendered pages use, relation offsets and neighbours.
  *
  * The object comes from `?id=<id>` or from the path `…/objects/<slug>/` (the not-found page

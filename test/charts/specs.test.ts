@@ -7,7 +7,7 @@ import { writeMiniContent } from '../helpers/mini-content.ts';
 import type { MassFunctionContent, ObjectContent, QualityContent, RelationContent, SiteContent } from '../../src/lib/pipeline/content.ts';
 import {
   coverageSpec,
-  cornerSvg,
+  posteriorSvg,
   essSpec,
   flagsByRedshiftSpec,
   flagsSpec,
@@ -90,7 +90,7 @@ describe('SED figure', () => {
 
   it('escapes text from the input tables', () => {
     const o = read<ObjectContent>(plain, 'objects/GAL-0001.json');
-    for (const svg of [sed({ ...o, id: 'a<b>&"c' }, 'flux'), cornerSvg({ ...o, id: 'a<b>&"c' })]) {
+    for (const svg of [sed({ ...o, id: 'a<b>&"c' }, 'flux'), posteriorSvg({ ...o, id: 'a<b>&"c' })]) {
       expect(svg).not.toContain('a<b>');
       expect(svg).toContain('a&lt;b&gt;&amp;');
     }
@@ -99,7 +99,7 @@ describe('SED figure', () => {
   it('is the same text whatever was drawn before, with geometry at hundredths of a pixel', () => {
     const o = read<ObjectContent>(plain, 'objects/GAL-0001.json');
     const first = sed(o, 'flux');
-    cornerSvg(o);
+    posteriorSvg(o);
     sed(o, 'mag');
     expect(sed(o, 'flux')).toBe(first);
     expect(first).not.toMatch(/ (d|transform|x|y)="[^"]*\d\.\d{3,}[^"]*"/);
@@ -107,24 +107,23 @@ describe('SED figure', () => {
   });
 });
 
-describe('corner figure', () => {
-  it('labels contours by enclosed mass, never in sigma, and marks truth only for mocks', () => {
+describe('posterior matrix', () => {
+  it('shades credible regions named by enclosed mass, never in sigma, and marks truth only for mocks', () => {
     const o = read<ObjectContent>(plain, 'objects/GAL-0001.json');
     const m = read<ObjectContent>(mock, 'objects/GAL-0001.json');
-    const a = cornerSvg(o);
-    const b = cornerSvg(m);
+    const a = posteriorSvg(o);
+    const b = posteriorSvg(m);
     for (const svg of [a, b]) {
-      expect(svg).toContain('68%');
-      expect(svg).toContain('95%');
+      expect(svg).toContain('68% credible');
+      expect(svg).toContain('95% credible');
       expect(svg.toLowerCase()).not.toContain('sigma');
       expect(svg).not.toContain('σ');
-      expect(svg).not.toContain('<rect x'); // contours are paths, not density cells
+      expect(svg).not.toContain('<rect x'); // regions are paths, not density cells
       expect(svg).not.toMatch(/NaN|Infinity|undefined/);
     }
-    expect(a).not.toContain('#d55e00'); // no truth marker without a truth
     expect(a).not.toContain('true value');
-    expect(b).toContain('#d55e00');
-    expect(b).toContain('true value');
+    expect(b).toContain('true value (mock)');
+    expect(b).toContain('marked with a diamond');
   });
 
   it('formats mass levels as percentages', () => {
@@ -132,10 +131,10 @@ describe('corner figure', () => {
     expect(massLabel(0.954)).toBe('95.4%');
   });
 
-  it('stays small: a 4-parameter corner under 12 KB gzipped', async () => {
+  it('stays small: a 4-parameter matrix under 8 KB gzipped', async () => {
     const { gzipSync } = await import('node:zlib');
-    const svg = cornerSvg(read<ObjectContent>(plain, 'objects/GAL-0001.json'));
-    expect(gzipSync(svg).length).toBeLessThan(12_000);
+    const svg = posteriorSvg(read<ObjectContent>(plain, 'objects/GAL-0001.json'));
+    expect(gzipSync(svg).length).toBeLessThan(8_000);
   });
 });
 

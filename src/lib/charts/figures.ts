@@ -4,7 +4,7 @@
  */
 import type { TopLevelSpec } from 'vega-lite';
 import type { MassFunctionContent, ObjectContent, QualityContent, RelationContent, SiteContent } from '../pipeline/content.ts';
-import { cornerSvg } from './corner.ts';
+import { posteriorSvg } from './posterior.ts';
 import { massSpec, redshiftSpec } from './home.ts';
 import { massFunctionSpec } from './massfunction.ts';
 import { coverageSpec, essSpec, flagsByRedshiftSpec, flagsSpec, pitSpec, pvalueSpec } from './quality.ts';
@@ -59,11 +59,11 @@ export function pngOf(svgPath: string): string {
   return svgPath.replace(/\.svg$/, '.png');
 }
 
-/** An object's figures as SVG text: the SED in flux density and in AB magnitudes, and the corner plot (null where there is nothing to draw). */
+/** An object's figures as SVG text: the SED in flux density and in AB magnitudes, and the posterior matrix (null where there is nothing to draw). */
 export interface ObjectFigures {
   sed: string | null;
   sedMag: string | null;
-  corner: string | null;
+  posterior: string | null;
 }
 
 /** Draw an object's figures (pure and fast: the same call serves the prerender and the browser viewer). */
@@ -72,7 +72,7 @@ export function objectFigures(obj: ObjectContent): ObjectFigures {
   return {
     sed: hasSed ? sedSvg(sedModel(obj, { units: 'flux' })) : null,
     sedMag: hasSed ? sedSvg(sedModel(obj, { units: 'mag' })) : null,
-    corner: obj.marginals.length ? cornerSvg(obj) : null,
+    posterior: obj.marginals.length ? posteriorSvg(obj) : null,
   };
 }
 

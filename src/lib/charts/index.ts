@@ -1,6 +1,6 @@
 /** Charts: derived content in, Vega-Lite specs (site figures) or SVG (object figures) out (pure; no I/O). */
 export { sedModel, sedSvg, sedPoints, abMagFromUJy, maskedRanges, type SedModel, type SedOptions, type SedUnits } from './sed.ts';
-export { cornerSvg, massLabel, formatInterval, type CornerOptions } from './corner.ts';
+export { posteriorSvg, massLabel, type PosteriorOptions } from './posterior.ts';
 export { relationSpec, relationPanelSpec, relationPointsSpec, relationSeries, shortCitation, zBinLabel, METHOD_STYLE, TRUTH_SERIES, type RelationPanelOptions } from './relation.ts';
 export { histogramSpec, type HistogramSeries, type HistogramOptions } from './histogram.ts';
 export { skySpec } from './sky.ts';

@@ -99,7 +99,7 @@ export async function renderObjectFigures(contentDir: string, slugs: string[], f
     const tmp = `${file}.tmp-${process.pid}-${threadId}`;
     await writeFile(tmp, JSON.stringify(figs));
     await rename(tmp, file);
-    rendered += (figs.sed ? 2 : 0) + (figs.corner ? 1 : 0);
+    rendered += (figs.sed ? 2 : 0) + (figs.posterior ? 1 : 0);
   }
   return { rendered, cached: 0, count: rendered };
 }

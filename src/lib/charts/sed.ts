@@ -12,8 +12,9 @@
 import type { ObjectContent, PhotPoint } from '../pipeline/content.ts';
 import { COLOURS } from './theme.ts';
 import { axis } from './svg/axis.ts';
+import { clipRect, idPrefix, legend, panelFrame, rules, svgRoot, symbols, titleBlock, type LegendEntry } from './svg/figure.ts';
 import { positionScale, type PositionScale } from './svg/scale.ts';
-import { areaPath, attrs, escapeXml, linePath, px, symbolPath, textWidth, type SymbolShape } from './svg/write.ts';
+import { areaPath, linePath, px, symbolPath, textWidth } from './svg/write.ts';
 
 export type SedUnits = 'flux' | 'mag';
 
@@ -117,13 +118,14 @@ function extent(values: number[]): [number, number] {
 /** One series of the legend, in drawing order. */
 export const SED_SERIES = ['observed', 'flux ≤ 0 (on axis floor)', 'upper limit', 'model SED', 'model photometry', 'spectrum'] as const;
 export type SedSeries = (typeof SED_SERIES)[number];
-const SERIES_COLOUR: Record<SedSeries, string> = {
-  observed: COLOURS.ink,
-  'flux ≤ 0 (on axis floor)': COLOURS.ink,
-  'upper limit': COLOURS.ink,
-  'model SED': COLOURS.blue,
-  'model photometry': COLOURS.vermillion,
-  spectrum: COLOURS.green,
+/** Each series' legend glyph: the mark itself, drawn in a 20 x 14 box centred on (10, 7). */
+const GLYPH: Record<SedSeries, string> = {
+  observed: `<path d="M10,1V13" stroke="${COLOURS.ink}" stroke-width="1.2"/><path d="${symbolPath('circle', 10, 7, 36)}" fill="${COLOURS.ink}"/>`,
+  'flux ≤ 0 (on axis floor)': `<path d="${symbolPath('circle', 10, 7, 40)}" stroke="${COLOURS.ink}" stroke-width="1.5"/>`,
+  'upper limit': `<path d="M4,3h12" stroke="${COLOURS.ink}" stroke-width="1.5"/><path d="M10,3V9" stroke="${COLOURS.ink}" stroke-width="1.2"/><path d="${symbolPath('triangle-down', 10, 10, 50)}" fill="${COLOURS.ink}"/>`,
+  'model SED': `<path d="M1,7h18" stroke="${COLOURS.blue}" stroke-width="1.5"/>`,
+  'model photometry': `<path d="${symbolPath('square', 10, 7, 60)}" stroke="${COLOURS.vermillion}" stroke-width="1.5" stroke-opacity="0.7"/>`,
+  spectrum: `<path d="M1,4h18v6h-18z" fill="${COLOURS.green}" opacity="0.25"/><path d="M1,8l4-2,3,3,4-4,3,2,4-1" stroke="${COLOURS.green}"/>`,
 };
 
 /** Everything the SED figure draws, in data units: the chart model shared by Node and the browser. */
@@ -254,70 +256,6 @@ const RESID_H = 100;
 /** Between the main panel and the residual panel. */
 const GAP = 8;
 
-/** A stable, XML-safe prefix for the ids of one figure (clip paths), from its kind and object id (FNV-1a). */
-export function idPrefix(kind: string, id: string): string {
-  let h = 0x811c9dc5;
-  for (const ch of `${kind}\0${id}`) {
-    h ^= ch.codePointAt(0)!;
-    h = Math.imul(h, 0x01000193) >>> 0;
-  }
-  return `${kind}${h.toString(36)}`;
-}
-
-/** The figure's root element: size, accessible name, title and description. */
-export function svgRoot(width: number, height: number, title: string, description: string, body: string): string {
-  return (
-    `<svg xmlns="http://www.w3.org/2000/svg" width="${px(width)}" height="${px(height)}" viewBox="0 0 ${px(width)} ${px(height)}" role="img" aria-label="${escapeXml(description || title)}" class="chart" fill="none" font-family="sans-serif">` +
-    `<title>${escapeXml(title)}</title>${description ? `<desc>${escapeXml(description)}</desc>` : ''}${body}</svg>`
-  );
-}
-
-/** Title (13 px) and an optional subtitle (12 px, muted) at the top left; returns the svg and the height used. */
-export function titleBlock(title: string, subtitle: string | null): { svg: string; height: number } {
-  let svg = `<text x="0" y="10" font-size="13" fill="${COLOURS.ink}">${escapeXml(title)}</text>`;
-  if (subtitle) svg += `<text x="0" y="25" font-size="12" fill="${COLOURS.muted}">${escapeXml(subtitle)}</text>`;
-  return { svg, height: subtitle ? 28 : 13 };
-}
-
-/** A one-row legend of coloured circles and labels; returns the svg and its width. */
-export function legendRow(entries: { label: string; colour: string }[]): { svg: string; width: number } {
-  let x = 0;
-  let sym = '';
-  let text = '';
-  for (const e of entries) {
-    sym += `<path d="${symbolPath('circle', x + 6, 6, 100)}" fill="${e.colour}" stroke="${e.colour}"/>`;
-    text += `<text x="${px(x + 16)}" y="9">${escapeXml(e.label)}</text>`;
-    x += 16 + textWidth(e.label, 11) + 16;
-  }
-  return { svg: `<g stroke-width="1.5" opacity="0.7">${sym}</g><g font-size="11" fill="${COLOURS.ink}">${text}</g>`, width: Math.max(0, x - 16) };
-}
-
-type Mark = { shape: SymbolShape; size: number; fill?: string; stroke?: string; strokeWidth?: number; opacity?: number };
-
-/** Symbols of one series: one element each (translucent ones darken where they overlap, as separate marks do). */
-export function symbols(points: { x: number; y: number }[], m: Mark): string {
-  if (!points.length) return '';
-  let s = `<g${attrs({ fill: m.fill, stroke: m.stroke, 'stroke-width': m.strokeWidth, 'fill-opacity': m.opacity !== undefined && m.fill ? m.opacity : undefined, 'stroke-opacity': m.opacity !== undefined && m.stroke ? m.opacity : undefined })}>`;
-  for (const p of points) if (Number.isFinite(p.x) && Number.isFinite(p.y)) s += `<path d="${symbolPath(m.shape, p.x, p.y, m.size)}"/>`;
-  return s + '</g>';
-}
-
-/** Vertical rules (error bars) of one series as one path. */
-export function rules(items: { x: number; y1: number; y2: number }[], stroke: string, width: number): string {
-  let d = '';
-  for (const r of items) if (Number.isFinite(r.x) && Number.isFinite(r.y1) && Number.isFinite(r.y2)) d += `M${px(r.x)},${px(r.y1)}V${px(r.y2)}`;
-  return d ? `<path d="${d}"${attrs({ stroke, 'stroke-width': width })}/>` : '';
-}
-
-/** The frame of a panel of `w` x `h` px. */
-export function panelFrame(w: number, h: number): string {
-  return `<path d="M0.5,0.5h${px(w)}v${px(h)}h-${px(w)}Z" stroke="${COLOURS.grid}"/>`;
-}
-
-export function clipRect(id: string, w: number, h: number): string {
-  return `<clipPath id="${id}"><rect width="${px(w)}" height="${px(h)}"/></clipPath>`;
-}
-
 /** The SED figure as SVG (see `sedModel`). */
 export function sedSvg(m: SedModel): string {
   const W = m.width;
@@ -330,13 +268,13 @@ export function sedSvg(m: SedModel): string {
   const xAxis = axis({ orient: 'bottom', height: RESID_H, scale: xs, tickCount: 6, title: 'Observed wavelength (µm)', labelOverlap: 'greedy' });
   const left = Math.ceil(Math.max(yAxis.extent, rAxis.extent)) + PAD;
   const head = titleBlock(m.title, m.subtitle);
-  const legend = legendRow(m.legend.map((s) => ({ label: s, colour: SERIES_COLOUR[s] })));
+  const key = legend(m.legend.map((s): LegendEntry => ({ label: s, glyph: GLYPH[s] })), W);
   const legendTop = PAD + head.height + 3;
-  const mainTop = m.legend.length ? legendTop + 33 : PAD + head.height + 8;
+  const mainTop = m.legend.length ? legendTop + key.height + 19 : PAD + head.height + 8;
   const residTop = mainTop + MAIN_H + GAP;
   const height = residTop + RESID_H + Math.ceil(xAxis.extent) + PAD;
   const lastLabel = xAxis.ticks.filter((t) => t.label).map((t) => xs(t.value) + 0.5 + textWidth(t.label, 11) / 2);
-  const width = left + Math.ceil(Math.max(W + 0.5, legend.width, ...lastLabel)) + PAD;
+  const width = left + Math.ceil(Math.max(W + 0.5, key.width, ...lastLabel)) + PAD;
   const clip = idPrefix(mag ? 'sm' : 'sf', m.id);
   const X = (wl: number) => xs(wl);
   const Y = (v: number) => ys(v);
@@ -376,7 +314,7 @@ export function sedSvg(m: SedModel): string {
   const body =
     `<defs>${clipRect(`${clip}-m`, W, MAIN_H)}${clipRect(`${clip}-r`, W, RESID_H)}</defs>` +
     `<g transform="translate(${PAD},${PAD})">${head.svg}</g>` +
-    (m.legend.length ? `<g transform="translate(${left},${legendTop})">${legend.svg}</g>` : '') +
+    (m.legend.length ? `<g transform="translate(${left},${legendTop})">${key.svg}</g>` : '') +
     `<g transform="translate(${left},${mainTop})">${main}</g>` +
     `<g transform="translate(${left},${residTop})">${resid}</g>`;
   return svgRoot(width, height, m.title, m.description, body);

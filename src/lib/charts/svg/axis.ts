@@ -27,6 +27,14 @@ export interface AxisOptions {
   labelOverlap?: 'parity' | 'greedy' | false;
   /** Labels within a pixel of either end of the axis are aligned inwards, so they stay inside the panel's span. */
   labelFlush?: boolean;
+  /** Hide labels that would reach more than 2 px beyond the axis's ends (panels side by side). */
+  labelBound?: boolean;
+  /**
+   * Estimated label width per character, in em: 0.8 (default) is the conservative estimate the
+   * site's Vega figures use, so figures drawn alike keep the same labels; 0.6 is nearer the
+   * digits of common sans-serif fonts, for small panels.
+   */
+  charWidth?: number;
 }
 
 export interface AxisResult {
@@ -54,8 +62,8 @@ interface Label {
   shown: boolean;
 }
 
-function labelBox(text: string, x: number, y: number, anchor: Label['anchor'], baseline: Label['baseline'], size: number): Label['box'] {
-  const w = textWidth(text, size);
+function labelBox(text: string, x: number, y: number, anchor: Label['anchor'], baseline: Label['baseline'], size: number, em: number): Label['box'] {
+  const w = em === 0.8 ? textWidth(text, size) : Math.ceil(em * text.length * size);
   const y1 = y + baselineOffset(baseline, size) - Math.round(0.8 * size);
   const x1 = anchor === 'middle' ? x - w / 2 : anchor === 'end' ? x - w : x;
   return [x1, y1, x1 + w, y1 + size];
@@ -99,6 +107,7 @@ export function axis(o: AxisOptions): AxisResult {
   const [r0, r1] = o.scale.range;
   const lo = Math.min(r0, r1), hi = Math.max(r0, r1);
   const left = o.orient === 'left';
+  const em = o.charWidth ?? 0.8;
   const base = (o.height ?? 0) + 0.5;
   const ticks: AxisResult['ticks'] = [];
   const labels: Label[] = [];
@@ -123,14 +132,19 @@ export function axis(o: AxisOptions): AxisResult {
     if (left) {
       const baseline = flush === 'start' ? 'top' : flush === 'end' ? 'bottom' : 'middle';
       const x = 0.5 - TICK - LABEL_PAD, y = p + 0.5;
-      labels.push({ text, x, y, anchor: 'end', baseline, box: labelBox(text, x, y, 'end', baseline, labelSize), shown: true });
+      labels.push({ text, x, y, anchor: 'end', baseline, box: labelBox(text, x, y, 'end', baseline, labelSize, em), shown: true });
     } else {
       const anchor = flush ?? 'middle';
       const x = p + 0.5, y = base + TICK + LABEL_PAD;
-      labels.push({ text, x, y, anchor, baseline: 'top', box: labelBox(text, x, y, anchor, 'top', labelSize), shown: true });
+      labels.push({ text, x, y, anchor, baseline: 'top', box: labelBox(text, x, y, anchor, 'top', labelSize, em), shown: true });
     }
   }
   if (o.labelOverlap) removeOverlaps(labels, o.labelOverlap);
+  if (o.labelBound)
+    for (const l of labels) {
+      const [a, b] = left ? [l.box[1], l.box[3]] : [l.box[0], l.box[2]];
+      if (a < lo - 2 || b > hi + 2.5) l.shown = false;
+    }
   const shown = labels.filter((l) => l.shown && l.text !== '');
 
   // how far ticks and labels reach: the title stands beyond them
@@ -152,16 +166,22 @@ export function axis(o: AxisOptions): AxisResult {
   }
   let extent = reach + 0.5;
   if (o.title) {
-    const t = escapeXml(o.title);
+    // a title may have several lines ("\n"): the last stands nearest the axis on the left, the first on the bottom
+    const lines = o.title.split('\n').map(escapeXml);
+    const lh = titleSize + 2;
+    const extra = (lines.length - 1) * lh;
+    const style = attrs({ 'font-size': titleSize, 'text-anchor': 'middle', fill: COLOURS.ink });
     if (left) {
-      const x = -(reach + TITLE_PAD) + 0.5;
       const y = (lo + hi) / 2 + 0.5;
-      svg += `<text transform="translate(${px(x)},${px(y)}) rotate(-90)" y="${baselineOffset('bottom', titleSize)}"${attrs({ 'font-size': titleSize, 'text-anchor': 'middle', fill: COLOURS.ink })}>${t}</text>`;
-      extent = reach + TITLE_PAD - baselineOffset('bottom', titleSize) + Math.round(0.8 * titleSize);
+      lines.forEach((t, n) => {
+        const x = -(reach + TITLE_PAD) + 0.5 - (lines.length - 1 - n) * lh;
+        svg += `<text transform="translate(${px(x)},${px(y)}) rotate(-90)" y="${baselineOffset('bottom', titleSize)}"${style}>${t}</text>`;
+      });
+      extent = reach + TITLE_PAD - baselineOffset('bottom', titleSize) + Math.round(0.8 * titleSize) + extra;
     } else {
-      const y = base + reach + TITLE_PAD;
-      svg += `<text x="${px((lo + hi) / 2 + 0.5)}" y="${px(y + baselineOffset('top', titleSize))}"${attrs({ 'font-size': titleSize, 'text-anchor': 'middle', fill: COLOURS.ink })}>${t}</text>`;
-      extent = reach + TITLE_PAD + baselineOffset('top', titleSize) - Math.round(0.8 * titleSize) + titleSize;
+      const y = base + reach + TITLE_PAD + baselineOffset('top', titleSize);
+      lines.forEach((t, n) => (svg += `<text x="${px((lo + hi) / 2 + 0.5)}" y="${px(y + n * lh)}"${style}>${t}</text>`));
+      extent = reach + TITLE_PAD + baselineOffset('top', titleSize) - Math.round(0.8 * titleSize) + titleSize + extra;
     }
   }
   return { grid: gridD ? `<path d="${gridD}" stroke="${COLOURS.grid}"/>` : '', svg, extent, ticks };
