@@ -17,17 +17,17 @@ import { slugOf } from '../core/slug.ts';
 
 export const FORMAT_NOTES: Record<string, { format: string; notes: string }> = {
   'catalogue.csv': { format: 'CSV (RFC 4180)', notes: 'one header row; empty fields are missing values; units and descriptions are on the Columns page' },
-  'catalogue.fits': { format: 'FITS binary table (FITS Standard 4.0)', notes: 'first extension CATALOGUE; TUNITn units, TCOMMn descriptions, TUCDn UCDs; NaN and TNULL for missing values' },
-  'catalogue.arrow': { format: 'Apache Arrow IPC file', notes: 'units, descriptions and UCDs in field metadata (unit, description, ucd)' },
-  'catalogue.vot': { format: 'IVOA VOTable 1.4', notes: 'COOSYS ICRS; FIELD unit (VOUnits), ucd (UCD1+), DESCRIPTION; BINARY2 serialisation for large tables' },
+  'catalogue.fits': { format: 'FITS binary table (FITS Standard 4.0)', notes: 'first extension CATALOGUE; TUNITn units (none for log10 quantities, whose unit is in TCOMMn), TCOMMn descriptions, TUCDn UCDs; NaN and TNULL for missing values' },
+  'catalogue.arrow': { format: 'Apache Arrow IPC file', notes: 'units (dex(solMass) is log10 of a mass in solar masses), descriptions and UCDs in field metadata (unit, description, ucd)' },
+  'catalogue.vot': { format: 'IVOA VOTable 1.4', notes: "COOSYS ICRS; FIELD unit (VOUnits; 'dex' for log10 quantities, the physical unit in the DESCRIPTION), ucd (UCD1+), DESCRIPTION; BINARY2 serialisation for large tables" },
   'relations.json': { format: 'JSON', notes: 'every relation fit per redshift bin with its method, inputs and convergence diagnostics' },
   'massfunction.json': { format: 'JSON', notes: 'stellar mass function per redshift bin (1/Vmax) with Poisson and bootstrap uncertainties and Schechter fits' },
   'calibration.json': { format: 'JSON', notes: 'mock calibration: coverage, PIT, bias, NMAD and outlier fraction per parameter' },
   'release.json': { format: 'JSON', notes: 'release metadata and provenance: tool version, SHA-256 of every input file, the configuration as used' },
   'samples.parquet': { format: 'Apache Parquet', notes: 'every posterior draw: id, weight (normalised per object), parameters, log_prior where supplied' },
   'samples.csv.gz': { format: 'CSV, gzip', notes: 'every posterior draw (the Parquet file holds the same)' },
-  'photometry.csv': { format: 'CSV', notes: 'photometry as supplied, with flux densities in microjansky and pivot wavelengths in micron' },
-  'spectra.csv.gz': { format: 'CSV, gzip', notes: 'observed spectra, in microjansky and micron, with masks and model fluxes' },
+  'photometry.csv': { format: 'CSV', notes: 'photometry as supplied: fluxes in the unit of units.flux in release.json' },
+  'spectra.csv.gz': { format: 'CSV, gzip', notes: 'observed spectra as supplied (units.flux and units.wavelength in release.json), with masks and model fluxes' },
   SHA256SUMS: { format: 'text', notes: 'SHA-256 of every file under downloads/, as written by sha256sum' },
 };
 
