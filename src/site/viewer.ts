@@ -15,7 +15,7 @@ import { idOfSlug, slugOf } from '../lib/core/slug.ts';
 import { sedSpec } from '../lib/charts/sed.ts';
 import { cornerSpec } from '../lib/charts/corner.ts';
 import { PATHS, rel } from './paths.ts';
-import { digitsFor, interval, num, range, sig } from './format.ts';
+import { interval, num, paramDecimals, range, sig } from './format.ts';
 import type { ViewerLookup } from './viewer-data.ts';
 
 const HERE = '/objects/view/';
@@ -119,7 +119,7 @@ function paramTable(o: ObjectContent, priorEdgeMass: number): HTMLElement {
   const showTruth = o.params.some((p) => p.truth !== undefined);
   const so = o.summariesOnly;
   const row = (p: ParamRow) => {
-    const d = digitsFor(Math.min(p.p84 - p.p50, p.p50 - p.p16) || p.std);
+    const d = paramDecimals(p);
     return h(
       'tr',
       null,
