@@ -12,40 +12,9 @@ import { PROJECT_ROOT, partialFilesIn } from '../../src/lib/release/build.ts';
 import { PARTIAL_FORMAT, PARTIAL_FORMAT_VERSION, PARTIAL_MAGIC, type PartialHeader } from '../../src/lib/pipeline/partials.ts';
 import { TOOL } from '../../src/lib/pipeline/run.ts';
 import { checkSlurmOptions, slurmScript, type SlurmScriptOptions } from './slurm.ts';
+import { type CliArgs, UsageError, intFlag, stringFlag, usage } from '../usage.ts';
 
-export interface CliArgs {
-  positional: string[];
-  flags: Record<string, string | boolean>;
-}
-
-export const CLUSTER_USAGE = `  posterity summarise <bundle-folder> --part I --of N --out <partials-dir> [--workers W] [--quiet]
-  posterity merge <partials-dir> --out <merged-dir> [--quiet]
-  posterity merge <partials-dir> --missing --of N [--bundle <bundle-folder>]
-  posterity cluster-script <bundle-folder> --parts N [--out script.sh] [--work <dir>] [--site <dir>]
-      [--partition P] [--account A] [--time HH:MM:SS] [--mem 4G] [--cpus 2] [--job-name posterity]
-      [--merge-time HH:MM:SS] [--merge-mem 8G] [--merge-cpus 2] [--node /path/to/node]`;
-
-export class UsageError extends Error {}
-
-function usage(message: string): never {
-  throw new UsageError(message);
-}
-
-/** A string flag, or undefined; `--flag` without a value is a usage error. */
-export function stringFlag(args: CliArgs, name: string): string | undefined {
-  const v = args.flags[name];
-  if (v === undefined) return undefined;
-  if (typeof v !== 'string' || v === '') usage(`--${name} needs a value`);
-  return v;
-}
-
-/** A whole-number flag; `min` is the smallest allowed value. */
-export function intFlag(args: CliArgs, name: string, min: number): number | undefined {
-  const v = stringFlag(args, name);
-  if (v === undefined) return undefined;
-  if (!/^\d+$/.test(v) || Number(v) < min) usage(`--${name} expects a whole number of at least ${min}, got "${v}"`);
-  return Number(v);
-}
+export type { CliArgs } from '../usage.ts';
 
 /** Writes text to a file through a temporary file in the same folder, so it is never seen half-written. */
 async function writeAtomic(path: string, text: string, mode?: number): Promise<void> {
@@ -69,9 +38,10 @@ function bundleDir(arg: string | undefined): string {
 
 /** `posterity cluster-script`: writes the Slurm job-array script (to --out, else to stdout). */
 export async function cmdClusterScript(args: CliArgs): Promise<number> {
-  const bundle = bundleDir(args.positional[1]);
+  // usage first (exit 2), then the input (exit 1)
   const parts = intFlag(args, 'parts', 1);
   if (parts === undefined) usage('--parts N is required');
+  const bundle = bundleDir(args.positional[1]);
   const work = resolve(stringFlag(args, 'work') ?? 'posterity-work');
   const opts: SlurmScriptOptions = {
     bundle,
@@ -106,15 +76,12 @@ export async function cmdClusterScript(args: CliArgs): Promise<number> {
   return 0;
 }
 
-/** Runs a cluster verb, turning usage and input errors into exit codes 2 and 1. */
+/** Runs a cluster verb, turning input errors into exit code 1; usage errors go up to the CLI (exit 2). */
 export async function runClusterVerb(fn: (args: CliArgs) => Promise<number>, args: CliArgs): Promise<number> {
   try {
     return await fn(args);
   } catch (e) {
-    if (e instanceof UsageError) {
-      process.stderr.write(`${e.message}\nusage:\n${CLUSTER_USAGE}\n`);
-      return 2;
-    }
+    if (e instanceof UsageError) throw e;
     if (e instanceof InputError) {
       process.stderr.write(`error: ${e.message}\n`);
       return 1;
@@ -129,13 +96,13 @@ export async function runClusterVerb(fn: (args: CliArgs) => Promise<number>, arg
 
 /** `posterity summarise`: the objects of one part of the catalogue into a partial file in --out. */
 export async function cmdSummarise(args: CliArgs): Promise<number> {
-  const bundle = bundleDir(args.positional[1]);
   const part = intFlag(args, 'part', 0);
   const of = intFlag(args, 'of', 1);
   const out = stringFlag(args, 'out');
   if (part === undefined || of === undefined || !out) usage('summarise needs --part I --of N --out <partials-dir>');
   if (part >= of) usage(`--part must be below --of (parts are numbered 0 to ${of - 1}), got --part ${part} --of ${of}`);
   const workers = intFlag(args, 'workers', 1);
+  const bundle = bundleDir(args.positional[1]);
   const t0 = Date.now();
   const { summarisePartition } = await import('../../src/lib/pipeline/summarise-partition.ts');
   const r = await summarisePartition(bundle, { part, of, outDir: resolve(out), ...(workers ? { workers } : {}) });

@@ -19,6 +19,7 @@ import { join } from 'node:path';
 import { tableFromIPC, type Table } from 'apache-arrow';
 import { contentDir, loadSite } from './load.ts';
 import { chunkFileName, encodeChunk, EXPLORER_FORMAT, type ExplorerColumn, type ExplorerManifest, type ExplorerType } from './explorer-format.ts';
+import { columnDecimals } from './format.ts';
 
 export const CHUNK_ROWS = 32768;
 
@@ -123,8 +124,33 @@ function prepare(table: Table): Prepared {
     columns.push({ name: f.name, unit, description, type, group: g, ...(categories ? { categories } : {}) });
     values.set(f.name, vals);
   }
+  decideDecimals(columns, values, params, site.relations);
   const manifest: ExplorerManifest = { format: EXPLORER_FORMAT, rows: n, chunkRows: CHUNK_ROWS, chunks: Math.max(1, Math.ceil(n / CHUNK_ROWS)), columns, groups };
   return { manifest, values };
+}
+
+/**
+ * Decimals of every non-integer numeric column (`columnDecimals`): a parameter's columns
+ * (`<p>_mean`, `_p16`, ..., `_true`) and a relation's offsets from the 68% half-widths of the
+ * parameter (of y for offsets), so a value shows two significant digits of its typical
+ * uncertainty; every other column from its values' own precision.
+ */
+function decideDecimals(columns: ExplorerColumn[], values: Map<string, ArrayLike<number> | string[]>, params: string[], relations: { name: string; y: string }[]): void {
+  const spreads = new Map<string, Float64Array>();
+  for (const p of params) {
+    const lo = values.get(`${p}_p16`) as ArrayLike<number> | undefined;
+    const mid = values.get(`${p}_p50`) as ArrayLike<number> | undefined;
+    const hi = values.get(`${p}_p84`) as ArrayLike<number> | undefined;
+    if (!lo || !mid || !hi) continue;
+    spreads.set(p, Float64Array.from({ length: mid.length }, (_, i) => Math.min(hi[i]! - mid[i]!, mid[i]! - lo[i]!)));
+  }
+  for (const c of columns) {
+    if (c.type !== 'f32' && c.type !== 'f64') continue;
+    const p = params.find((q) => c.name.startsWith(`${q}_`));
+    const r = relations.find((q) => c.name === `${q.name}_offset`);
+    const sp = spreads.get(p ?? r?.y ?? '');
+    c.decimals = columnDecimals(values.get(c.name) as ArrayLike<number>, { unit: c.unit, ...(sp ? { spreads: sp } : {}) });
+  }
 }
 
 let cache: { dir: string; prepared: Prepared | null } | null = null;

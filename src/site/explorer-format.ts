@@ -25,6 +25,8 @@ export interface ExplorerColumn {
   /** Index into `groups`. */
   group: number;
   categories?: string[];
+  /** Decimal places every cell of a non-integer numeric column is shown with (`columnDecimals`). */
+  decimals?: number;
 }
 
 export interface ExplorerManifest {

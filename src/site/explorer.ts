@@ -15,6 +15,7 @@ import { slugOf } from '../lib/core/slug.ts';
 import { angularSeparationDeg, parseAngleArcsec, parseCoordinate } from '../lib/core/sky.ts';
 import { FLAG_INFO, describeFlags } from '../lib/core/flags.ts';
 import { chunkFileName, decodeChunk, type ChunkValues, type ExplorerColumn, type ExplorerManifest } from './explorer-format.ts';
+import { cell } from './format.ts';
 
 type Store = Float64Array | Float32Array | Int32Array | Int16Array | Uint8Array | string[];
 
@@ -52,13 +53,16 @@ function el<K extends keyof HTMLElementTagNameMap>(tag: K, attrs: Record<string,
 }
 
 /**
- * A cell's text. Float32 columns show 5 significant digits (their stored precision is about 7,
- * and posterior summaries are not known to more); angles in degrees 6 decimals (0.004 arcsec).
+ * A cell's text. Non-integer numeric columns show every cell at the column's decimals (chosen
+ * at build time from the values' uncertainties or precision, `columnDecimals`), so the column
+ * aligns; without them, 5 significant digits for float32 (their stored precision is about 7)
+ * and angles in degrees at 6 decimals (0.004 arcsec).
  */
 function fmt(v: unknown, c?: ExplorerColumn): string {
   if (v === null || v === undefined) return '';
   if (typeof v === 'number') {
     if (!Number.isFinite(v)) return '';
+    if (c?.decimals !== undefined) return cell(v, c.decimals);
     if (Number.isInteger(v)) return String(v);
     // a true minus sign, as on the rest of the site (the CSV export keeps ASCII)
     if (c?.unit === 'deg') return v.toFixed(6).replace('-', '−');

@@ -9,7 +9,7 @@ import type { ObjectFigures } from '../lib/charts/figures.ts';
 import type { PreviousObject } from '../lib/pipeline/changes-content.ts';
 import { describeFlags } from '../lib/core/flags.ts';
 import { html, raw, type Html } from './html.ts';
-import { digitsFor, interval, num, range, sig } from './format.ts';
+import { interval, num, paramDecimals, range, sig } from './format.ts';
 import { PATHS, rel } from './paths.ts';
 
 export interface ObjectPageOptions {
@@ -40,8 +40,9 @@ function paramTable(o: ObjectContent, priorEdgeMass: number): Html {
   const atEdge = (p: ParamRow) => p.priorEdgeMass !== undefined && p.priorEdgeMass > priorEdgeMass;
   const showTruth = o.params.some((p) => p.truth !== undefined);
   const so = o.summariesOnly;
+  // one count of decimals for the whole table, so its columns align: enough for the best-measured parameter
+  const d = Math.max(0, ...o.params.map(paramDecimals));
   const rows = o.params.map((p) => {
-    const d = digitsFor(Math.min(p.p84 - p.p50, p.p50 - p.p16) || p.std);
     const notes = [
       p.multimodal && html`<span class="badge flag">multimodal</span>`,
       atEdge(p) && html`<span class="badge flag" title="${`More than ${pct(priorEdgeMass)} of the posterior lies near a bound of the prior`}">${pct(p.priorEdgeMass as number)} at prior edge</span>`,

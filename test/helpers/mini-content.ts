@@ -470,7 +470,7 @@ export async function writeMiniContent(dir: string, opts: MiniOptions = {}): Pro
   if (!omit.has('quality')) {
     const quality: QualityContent = {
       isMock: mock,
-      essHist: { edges: [0, 100, 200, 300, 400, 500], counts: [0, 0, 0, 2, 0] },
+      essHist: { edges: [1, 10, 100, 1000, 10000], counts: [0, 0, 2, 0] },
       pvalueHist: { edges: [0, 0.2, 0.4, 0.6, 0.8, 1], counts: [1, 1, 0, 0, 0] },
       flagCounts: site.flags.map((f) => ({ name: f.name, label: f.label, count: f.count, fraction: round(f.count / 3, 4) })),
       flagsByRedshift: [

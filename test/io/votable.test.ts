@@ -12,6 +12,8 @@ import type { Table } from '../../src/lib/io/table.ts';
 import { cell, everyKindTable, expectSameTable } from '../helpers/everyKind.ts';
 import { describeWithPython, hasPython, runPython } from '../helpers/python.ts';
 import { runTool, shouldRunWithTools } from '../helpers/tools.ts';
+import { astropyRead } from '../helpers/astropy-read.ts';
+import { parseUnit, unitLabel, withFormatUnits } from '../../src/lib/io/units.ts';
 
 let dir = '';
 beforeAll(() => { dir = mkdtempSync(path.join(tmpdir(), 'posterity-vot-')); });
@@ -223,5 +225,47 @@ describeWithPython('VOTable: astropy reads what we wrote', ['astropy', 'numpy'],
       });
       expect(have, c.name).toEqual(want);
     });
+  });
+});
+
+/** everyKindTable with its units in canonical form, then spelled as VOUnits (src/lib/io/units.ts). */
+function voUnitsTable(t: Table): Table {
+  const canonical = { ...t, columns: t.columns.map((c) => (c.unit ? { ...c, unit: canonicalUnit(c.unit) } : c)) };
+  return withFormatUnits(canonical, 'votable', 'test.vot');
+}
+
+function canonicalUnit(text: string): string {
+  const r = parseUnit(text);
+  if (!r.ok) throw new Error(r.message);
+  return unitLabel(r.unit);
+}
+
+describeWithPython("VOTable: astropy's validator and reader report nothing", ['astropy'], () => {
+  it('TABLEDATA, BINARY2 and a large BINARY2 document: no validator warning, no astropy warning', async () => {
+    const files: string[] = [];
+    for (const serialization of ['TABLEDATA', 'BINARY2'] as const) {
+      const p = path.join(dir, `clean-${serialization}.vot`);
+      await writeVOTable(p, voUnitsTable(everyKindTable()), { ...OPTS, serialization });
+      files.push(p);
+    }
+    const big = path.join(dir, 'clean-big.vot');
+    await writeVOTable(big, voUnitsTable(bigTable(2000)), { resourceName: 'big', serialization: 'BINARY2' });
+    files.push(big);
+    const got = astropyRead(files.map((f) => [f, 'votable']));
+    expect(got.map((r) => [path.basename(r.path), r.warnings])).toEqual(files.map((f) => [path.basename(f), []]));
+    // the log10 mass keeps a unit astropy understands, with its physical unit in the description
+    expect(got[0]!.units.logmass_p50).toBe('dex');
+    expect(got[0]!.units.ra).toBe('deg');
+  });
+
+  it('the check has teeth: a log(...) unit (W50) and a TABLE named but without an ID (W03) are reported', async () => {
+    const p = path.join(dir, 'clean-TABLEDATA.vot');
+    const bad = path.join(dir, 'warned.vot');
+    const { writeFileSync } = await import('node:fs');
+    writeFileSync(bad, readFileSync(p, 'utf8').replace(/unit="&apos;dex&apos;"/, 'unit="log(solMass)"').replace(/<TABLE ID="[^"]*" name="[^"]*"/, '<TABLE name="demo release"'));
+    const [r] = astropyRead([[bad, 'votable']]);
+    const text = r!.warnings.join('\n');
+    expect(text).toMatch(/W50: Invalid unit string 'log\(solMass\)'/);
+    expect(text).toMatch(/W03: Implicitly generating an ID from a name/);
   });
 });

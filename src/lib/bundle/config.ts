@@ -9,6 +9,7 @@ import { join } from 'node:path';
 import { z } from 'zod';
 import { Parameter, Release, Tables, type ParameterConfig, type ReleaseConfig } from './schema.ts';
 import { PosterityError, type Problem } from '../core/problems.ts';
+import { parseUnit, UNIT_EXPECTED, unitLabel } from '../io/units.ts';
 
 export const CONFIG_FILE = 'release.json';
 
@@ -115,7 +116,7 @@ export function parseConfigParts(text: string, file = CONFIG_FILE): ConfigParts 
     return { problems: [{ severity: 'error', file, field: '(top level)', message: 'wrong type', expected: 'a JSON object', got: describeValue(json) }] };
   const r = Release.safeParse(json);
   if (r.success) {
-    const problems = semanticChecks(r.data, file);
+    const problems = [...semanticChecks(r.data, file), ...mapParameterUnits(r.data, file)];
     const config = problems.some((p) => p.severity === 'error') ? undefined : r.data;
     return { config, tables: r.data.tables, parameters: r.data.parameters, problems };
   }
@@ -125,10 +126,12 @@ export function parseConfigParts(text: string, file = CONFIG_FILE): ConfigParts 
   let parameters: ParameterConfig[] | undefined;
   if (Array.isArray(obj.parameters)) {
     parameters = [];
-    for (const p of obj.parameters) {
+    obj.parameters.forEach((p, i) => {
       const pr = Parameter.safeParse(p);
-      if (pr.success) parameters.push(pr.data);
-    }
+      if (!pr.success) return;
+      problems.push(...unitProblems(pr.data, i, file));
+      parameters!.push(pr.data);
+    });
   }
   return { tables: tables.success ? tables.data : undefined, parameters, problems };
 }
@@ -137,6 +140,25 @@ export function parseConfigParts(text: string, file = CONFIG_FILE): ConfigParts 
 export function parseConfig(text: string, file = CONFIG_FILE): { config?: ReleaseConfig; problems: Problem[] } {
   const { config, problems } = parseConfigParts(text, file);
   return { config, problems };
+}
+
+/**
+ * Each parameter's free-text `unit` mapped to its canonical form (src/lib/io/units.ts), in
+ * place, so every download and page writes the same unit; a unit that cannot be mapped is an
+ * error naming its field.
+ */
+function mapParameterUnits(c: ReleaseConfig, file: string): Problem[] {
+  return c.parameters.flatMap((p, i) => unitProblems(p, i, file));
+}
+
+/** Maps one parameter's unit in place, or returns the problem. */
+function unitProblems(p: ParameterConfig, i: number, file: string): Problem[] {
+  const r = parseUnit(p.unit);
+  if (r.ok) {
+    p.unit = unitLabel(r.unit);
+    return [];
+  }
+  return [{ severity: 'error', file, field: `parameters[${i}].unit`, message: `unit cannot be mapped to a VOUnits and FITS unit (${r.message})`, expected: UNIT_EXPECTED, got: JSON.stringify(p.unit) }];
 }
 
 /** Checks zod cannot express: references between fields. */

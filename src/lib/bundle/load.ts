@@ -16,6 +16,7 @@ import { formatOf, readTableBatches } from '../io/read.ts';
 import { PosterityError, type Problem } from '../core/problems.ts';
 import type { ParameterConfig, ReleaseConfig, TableName, TableRefConfig } from './schema.ts';
 import { CONFIG_FILE, parseConfigParts, readConfigText } from './config.ts';
+import { parseUnit, UNIT_EXPECTED, unitLabel } from '../io/units.ts';
 import { TABLE_COLUMNS, type ColumnSpec } from './tables.ts';
 import { ProblemSink, normalisePassThrough, toBool, toFloat64, toIds, toInt32, toStrings } from './coerce.ts';
 
@@ -356,6 +357,19 @@ function checkColumnMap(table: TableName, ref: TableRefConfig, specs: ColumnSpec
       sink.add({ severity: 'error', file: CONFIG_FILE, field: `tables.${table}.columns.${ours}`, message: `two of our columns are mapped to the same column (also "${other}")`, expected: 'a different column for each', got: JSON.stringify(theirs) });
     else byTheirs.set(theirs, ours);
   }
+}
+
+/**
+ * A passed-through column's unit in canonical form (src/lib/io/units.ts). One that cannot be
+ * mapped is dropped with a warning, and kept as text in the column description.
+ */
+function passThroughUnit(c: Column, file: string, column: string, sink: ProblemSink): Column {
+  if (!c.unit) return c;
+  const r = parseUnit(c.unit);
+  if (r.ok) return { ...c, unit: unitLabel(r.unit) || undefined };
+  sink.add({ severity: 'warning', file, column, message: `unit cannot be mapped to a VOUnits and FITS unit (${r.message}); the downloads give it in the description only`, expected: UNIT_EXPECTED, got: JSON.stringify(c.unit) });
+  const { unit, ...rest } = c;
+  return { ...rest, description: `${c.description ?? 'passed through from the input objects table'} (unit as supplied: ${unit})` };
 }
 
 /** Reorders an array by `perm` (out[k] = a[perm[k]]). */
@@ -706,7 +720,7 @@ function objectsFrom(loaded: Loaded, objSpecs: ColumnSpec[], objRef: TableRefCon
   for (const [ours, parts] of loaded.cols) {
     if (known.has(ours)) continue;
     const c = normalisePassThrough({ ...concatColumn(parts), name: ours }, untyped);
-    extra.push(permuteColumn(c, perm));
+    extra.push(permuteColumn(passThroughUnit(c, objRef.path, theirName(objRef, ours), sink), perm));
   }
   const nBands = oc.get('n_bands') as Int32Array | undefined;
   return {

@@ -33,7 +33,12 @@ export const Parameter = z
     /** Column in the samples table (default: the name). */
     column: nonEmpty.optional(),
     label: nonEmpty,
-    /** VOUnit, e.g. `log(solMass)`, `log(solMass/yr)`, `mag`, `log(yr)`. */
+    /**
+     * Unit of the values, as free text: `solMass`, `mag`, `Gyr`, `km/s`, and for log10 values
+     * `log(solMass)`, `log(solMass/yr)`, `dex(yr)`, `[solMass]` or `dex`. Mapped on load to one
+     * canonical form (`dex(solMass)`, `solMass/yr`; the mapping and how each download writes it:
+     * src/lib/io/units.ts); a unit it cannot map is an error naming this field.
+     */
     unit: z.string().default(''),
     description: nonEmpty,
     ucd: nonEmpty.optional(),

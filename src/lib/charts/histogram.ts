@@ -22,6 +22,8 @@ export interface HistogramOptions {
   /** A horizontal reference level, e.g. the uniform expectation of a PIT histogram. */
   level?: { y: number; label: string };
   logY?: boolean;
+  /** A logarithmic x axis, for bins of equal width in log10(x). */
+  logX?: boolean;
 }
 
 const r6 = (x: number): number => Math.round(x * 1e6) / 1e6;
@@ -32,7 +34,7 @@ export function histogramSpec(edges: number[], series: HistogramSeries[], opts: 
     for (let i = 0; i < s.counts.length && i + 1 < edges.length; i++) values.push({ lo: r6(edges[i]), hi: r6(edges[i + 1]), n: s.counts[i], series: s.name });
   }
   const multi = series.length > 1;
-  const x = { field: 'lo', type: 'quantitative', scale: { domain: [r6(edges[0] ?? 0), r6(edges[edges.length - 1] ?? 1)], nice: false, zero: false }, axis: { title: opts.xTitle, grid: false } };
+  const x = { field: 'lo', type: 'quantitative', scale: { ...(opts.logX ? { type: 'log' } : {}), domain: [r6(edges[0] ?? 0), r6(edges[edges.length - 1] ?? 1)], nice: false, zero: false }, axis: { title: opts.xTitle, grid: false } };
   const layers: Record<string, unknown>[] = [
     {
       data: { values },
@@ -48,8 +50,8 @@ export function histogramSpec(edges: number[], series: HistogramSeries[], opts: 
     },
   ];
   for (const r of opts.rules ?? []) {
-    layers.push({ data: { values: [{ lo: r.x, label: r.label }] }, mark: { type: 'rule', color: COLOURS.vermillion, strokeDash: [4, 3], strokeWidth: 1.5 }, encoding: { x: { ...x, axis: null } } });
-    layers.push({ data: { values: [{ lo: r.x, label: r.label }] }, mark: { type: 'text', color: COLOURS.vermillion, align: 'left', dx: 3, baseline: 'top', y: 2, fontSize: 10 }, encoding: { x: { ...x, axis: null }, text: { field: 'label' } } });
+    layers.push({ data: { values: [{ lo: r.x, label: r.label }] }, mark: { type: 'rule', color: COLOURS.vermillion, strokeDash: [4, 3], strokeWidth: 1.5 }, encoding: { x } });
+    layers.push({ data: { values: [{ lo: r.x, label: r.label }] }, mark: { type: 'text', color: COLOURS.vermillion, align: 'left', dx: 3, baseline: 'top', y: 2, fontSize: 10 }, encoding: { x, text: { field: 'label' } } });
   }
   if (opts.level) {
     layers.push({ data: { values: [{ n: opts.level.y }] }, mark: { type: 'rule', color: COLOURS.ink, strokeDash: [4, 3] }, encoding: { y: { field: 'n', type: 'quantitative' } } });

@@ -10,11 +10,16 @@ import { baseConfig, COLOURS, SCHEMA, SERIES } from './theme.ts';
 
 const r4 = (x: number): number => Math.round(x * 1e4) / 1e4;
 
+/**
+ * The ESS histogram: its bins are of equal width in log10(ESS) (evidence.ts, `logEdges`), so
+ * they are drawn on a logarithmic axis, where bar heights (counts) compare fairly.
+ */
 export function essSpec(q: QualityContent, threshold?: number): TopLevelSpec {
   return histogramSpec(q.essHist.edges, [{ name: 'objects', counts: q.essHist.counts }], {
     title: 'Effective sample size',
-    description: `Histogram of the effective number of independent posterior draws per object${threshold !== undefined ? `; the dashed line marks the low-ESS threshold of ${threshold}` : ''}.`,
-    xTitle: 'Effective sample size',
+    description: `Histogram of the effective number of independent posterior draws per object, in bins of equal width in log10 of the ESS on a logarithmic axis${threshold !== undefined ? `; the dashed line marks the low-ESS threshold of ${threshold}` : ''}.`,
+    xTitle: 'Effective sample size (logarithmic axis)',
+    logX: true,
     rules: threshold !== undefined ? [{ x: threshold, label: 'threshold' }] : [],
   });
 }

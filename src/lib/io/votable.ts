@@ -2,9 +2,11 @@
  * VOTable 1.4 (IVOA Recommendation, 2019) writer and reader.
  *
  * Writer: `version="1.4"` in the v1.3 namespace (VOTable 1.4 sect. 1.2: the namespace did not
- * change), FIELDs with datatype, unit (VOUnits), ucd and DESCRIPTION, a COOSYS referenced by
- * the position FIELDs (sect. 3.1, 4.1), and the rows as TABLEDATA (sect. 5.1) or as a base64
- * BINARY2 stream with a per-row null bitmask (sect. 5.5). Output is byte-deterministic.
+ * change), explicit IDs on RESOURCE, TABLE, PARAM and FIELD, FIELDs with datatype, unit, ucd
+ * and DESCRIPTION, a COOSYS referenced by the position FIELDs (sect. 3.1, 4.1), and the rows as
+ * TABLEDATA (sect. 5.1) or as a base64 BINARY2 stream with a per-row null bitmask (sect. 5.5).
+ * Output is byte-deterministic. Units are written as given: callers pass VOUnits
+ * (`withFormatUnits(table, 'votable')` in units.ts turns canonical labels into them).
  *
  * Reader: TABLEDATA, BINARY and BINARY2 of scalar columns, enough to read our own output back
  * and ordinary tables from elsewhere; the whole document is held in memory.
@@ -23,6 +25,8 @@ export const VOTABLE_NS = 'http://www.ivoa.net/xml/VOTable/v1.3';
 
 export interface WriteVOTableOptions {
   resourceName: string;
+  /** TABLE `name` (default: the resource name). RESOURCE and TABLE carry explicit IDs made from their names. */
+  tableName?: string;
   description?: string;
   coosys?: { id: string; system: 'ICRS'; epoch?: string };
   /** Columns that hold the right ascension and declination; their FIELDs get `ref` to the COOSYS. */
@@ -120,9 +124,14 @@ function headerXml(table: Table, fields: FieldInfo[], opts: WriteVOTableOptions,
   const lines: string[] = [];
   lines.push('<?xml version="1.0" encoding="UTF-8"?>');
   lines.push(`<VOTABLE version="1.4" xmlns="${VOTABLE_NS}" xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance" xsi:schemaLocation="${VOTABLE_NS} http://www.ivoa.net/xml/VOTable/v1.3">`);
-  lines.push(` <RESOURCE name="${escapeAttr(opts.resourceName)}" type="results">`);
+  // Explicit IDs everywhere an element has a name: without one, readers make an ID from the
+  // name themselves (astropy's validator reports that as W03).
+  const used = new Set<string>(opts.coosys ? [opts.coosys.id] : []);
+  const tableName = opts.tableName ?? opts.resourceName;
+  const resourceId = makeId(`${tableName}_resource`, used);
+  const tableId = makeId(tableName, used);
+  lines.push(` <RESOURCE ID="${resourceId}" name="${escapeAttr(opts.resourceName)}" type="results">`);
   if (opts.description) lines.push(`  <DESCRIPTION>${escapeText(opts.description)}</DESCRIPTION>`);
-  const used = new Set<string>();
   let coosysId: string | undefined;
   if (opts.coosys) {
     if (!/^[A-Za-z_][A-Za-z0-9._-]*$/.test(opts.coosys.id)) {
@@ -133,7 +142,6 @@ function headerXml(table: Table, fields: FieldInfo[], opts: WriteVOTableOptions,
       throw ioError({ message: 'COOSYS epoch is not in the VOTable form', file, field: 'coosys.epoch', expected: 'e.g. J2000 or J2016.0 (VOTable 1.4 sect. 3.1)', got: JSON.stringify(epoch) });
     }
     coosysId = opts.coosys.id;
-    used.add(coosysId);
     lines.push(`  <COOSYS ID="${escapeAttr(coosysId)}" system="${opts.coosys.system}"${epoch ? ` epoch="${escapeAttr(epoch)}"` : ''}/>`);
   }
   const refs = new Set<string>();
@@ -146,9 +154,9 @@ function headerXml(table: Table, fields: FieldInfo[], opts: WriteVOTableOptions,
       refs.add(name);
     }
   }
-  lines.push(`  <TABLE name="${escapeAttr(opts.resourceName)}" nrows="${table.numRows}">`);
+  lines.push(`  <TABLE ID="${tableId}" name="${escapeAttr(tableName)}" nrows="${table.numRows}">`);
   for (const [k, v] of Object.entries(opts.params ?? {})) {
-    lines.push(`   <PARAM name="${escapeAttr(k)}" datatype="char" arraysize="*" value="${escapeAttr(v)}"/>`);
+    lines.push(`   <PARAM name="${escapeAttr(k)}" ID="${makeId(k, used)}" datatype="char" arraysize="*" value="${escapeAttr(v)}"/>`);
   }
   for (const f of fields) {
     const c = f.col;

@@ -7,6 +7,11 @@
  * UCD followed by `stat.min` (2.5th and 16th, lower bounds of the central 95% and 68%
  * credible intervals) or `stat.max` (84th and 97.5th), the median with `stat.median`,
  * the mean with `stat.mean`, and the standard deviation as `stat.stdev;<ucd>`.
+ *
+ * Units are the canonical labels of src/lib/io/units.ts (parameters' units are mapped when
+ * release.json is read); each writer turns them into its format's spelling. A logarithmic
+ * quantity's description names the physical unit it is the log10 of, because neither the
+ * VOTable unit ('dex') nor FITS (no TUNITn) can carry it.
  */
 import type { Column, Table } from '../io/table.ts';
 import type { ParameterConfig, ReleaseConfig } from '../bundle/schema.ts';
@@ -14,6 +19,7 @@ import type { ObjectsData } from '../bundle/load.ts';
 import type { SummaryTable } from './summarise.ts';
 import type { ColumnDoc } from './content.ts';
 import { FLAG_INFO } from '../core/flags.ts';
+import { describeWithUnit, spreadLabel } from '../io/units.ts';
 
 export interface RelationColumns {
   name: string;
@@ -71,31 +77,35 @@ export function catalogueColumns(config: ReleaseConfig, objects: ObjectsData, re
   if (hasMixture)
     cols.push({ name: 'p_sequence', type: 'double', unit: '', ucd: 'stat.probability', description: 'probability of belonging to the star-forming main sequence, from the two-component mixture fit', formula: 'sequence density / (sequence + broad component) at the posterior mean, averaged over the fit posterior' });
   for (const p of config.parameters) {
-    for (const s of STATS)
+    for (const s of STATS) {
+      // a standard deviation of log10 values is a spread in dex, whatever they are the log of
+      const unit = s.key === 'std' ? spreadLabel(p.unit) : p.unit;
       cols.push({
         name: `${p.name}_${s.key}`,
         type: 'double',
-        unit: p.unit,
+        unit,
         ucd: s.ucd(paramUcd(p)),
-        description: `${p.description}: ${s.text}`,
+        description: describeWithUnit(`${p.description}: ${s.text}`, unit),
         formula: s.key.startsWith('p') ? QUANTILE_RULE : undefined,
       });
+    }
   }
   for (const r of relations) {
     const rel = config.relations.find((x) => x.name === r)!;
     const y = config.parameters.find((p) => p.name === rel.y)!;
-    cols.push({ name: `${r}_offset`, type: 'double', unit: y.unit, ucd: `${paramUcd(y)};arith.diff`, description: `offset of ${y.name} from the ${rel.title} fit in the object's redshift bin`, formula: 'y - (a + b (x - pivot)) at the posterior mean' });
+    const offsetUnit = spreadLabel(y.unit);
+    cols.push({ name: `${r}_offset`, type: 'double', unit: offsetUnit, ucd: `${paramUcd(y)};arith.diff`, description: describeWithUnit(`offset of ${y.name} from the ${rel.title} fit in the object's redshift bin`, offsetUnit), formula: 'y - (a + b (x - pivot)) at the posterior mean' });
     cols.push({ name: `${r}_tension`, type: 'double', unit: '', ucd: 'stat.value', description: `offset from the ${rel.title} in units of the combined intrinsic scatter and projected posterior spread`, formula: 'offset / sqrt(s^2 + Cyy - 2 b Cxy + b^2 Cxx)' });
   }
   for (const p of config.parameters)
-    if (objects.truth[p.name]) cols.push({ name: `${p.name}_true`, type: 'double', unit: p.unit, ucd: paramUcd(p), description: `true ${p.description} (mock catalogue)` });
+    if (objects.truth[p.name]) cols.push({ name: `${p.name}_true`, type: 'double', unit: p.unit, ucd: paramUcd(p), description: describeWithUnit(`true ${p.description} (mock catalogue)`, p.unit) });
   for (const c of objects.extra) {
     cols.push({
       name: c.name,
       type: c.kind === 'string' ? 'string' : c.kind === 'int64' ? 'long' : c.kind === 'int32' || c.kind === 'int16' || c.kind === 'uint8' ? 'int' : c.kind === 'bool' ? 'boolean' : 'double',
       unit: c.unit ?? '',
       ucd: c.ucd ?? '',
-      description: c.description ?? 'passed through from the input objects table',
+      description: describeWithUnit(c.description ?? 'passed through from the input objects table', c.unit ?? ''),
     });
   }
   return cols;

@@ -43,15 +43,41 @@ function hist(values: Float64Array | number[], edges: number[]): number[] {
 
 const r4 = (v: number) => (Number.isFinite(v) ? Number(v.toPrecision(4)) : NaN);
 
+/** ESS histogram bins: five per decade, 0.2 dex each. */
+export const ESS_BINS_PER_DECADE = 5;
+
+/**
+ * Edges of bins of equal width in log10(x), `perDecade` to a decade, on the grid 10^(k / perDecade),
+ * covering every positive finite value and `include` (a threshold the figure marks). Counts on
+ * such bins, drawn on a logarithmic axis, show the distribution of log10(x) without distortion.
+ */
+export function logEdges(values: ArrayLike<number>, perDecade: number, include?: number): number[] {
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (let i = 0; i < values.length; i++) {
+    const v = values[i]!;
+    if (!(v > 0) || !Number.isFinite(v)) continue;
+    if (v < lo) lo = v;
+    if (v > hi) hi = v;
+  }
+  if (include !== undefined && include > 0) {
+    lo = Math.min(lo, include);
+    hi = Math.max(hi, include);
+  }
+  if (!(lo <= hi)) lo = hi = 1;
+  const kLo = Math.floor(Math.log10(lo) * perDecade + 1e-9);
+  let kHi = Math.floor(Math.log10(hi) * perDecade + 1e-9) + 1;
+  if (kHi <= kLo) kHi = kLo + 1;
+  return Array.from({ length: kHi - kLo + 1 }, (_, j) => Number((10 ** ((kLo + j) / perDecade)).toPrecision(6)));
+}
+
 export function buildEvidence(inp: EvidenceInputs): { quality: QualityContent; massfunction: MassFunctionContent | null } {
   const { bundle, summary, pop, cosmo } = inp;
   const { config, objects } = bundle;
   const n = objects.n;
 
-  // ESS on log-spaced bins, p-values on linear bins
-  let essMax = 1;
-  for (const v of summary.ess) if (Number.isFinite(v) && v > essMax) essMax = v;
-  const essEdges = [1, 2, 5, 10, 20, 50, 100, 200, 500, 1000, 2000, 5000, 10000, 20000, 50000, 100000, 200000, 500000, 1e6].filter((e, i, a) => i === 0 || a[i - 1] <= essMax);
+  // ESS in bins of equal width in log10(ESS), p-values on linear bins
+  const essEdges = logEdges(summary.ess, ESS_BINS_PER_DECADE, config.quality.minEss);
   const pEdges = Array.from({ length: 21 }, (_, i) => i / 20);
   const flagCounts = FLAG_INFO.map((f) => {
     const count = summary.flags.reduce((s, v) => s + ((v & f.bit) !== 0 ? 1 : 0), 0);

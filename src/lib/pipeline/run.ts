@@ -19,6 +19,7 @@ import { renderMarkdown } from './markdown.ts';
 import { objectDownloadPaths, samplesTable, writeChecksums, writeJson, writeObjectDownloads } from './downloads.ts';
 import { writeCsv, cellText } from '../io/csv.ts';
 import { writeArrow } from '../io/arrow.ts';
+import { withFormatUnits } from '../io/units.ts';
 import { buildEvidence } from './evidence.ts';
 import { calibrationFromSamples, streamSampleProducts } from './samples-pass.ts';
 import { readCachedSummary, summaryKey, writeCachedSummary } from './summary-cache.ts';
@@ -114,7 +115,7 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
   await writeArrow(join(dl, 'catalogue.arrow'), { ...catalogue, meta: { title: config.title, version: config.version } });
   try {
     const { writeFits } = await import('../io/fits/index.ts');
-    await writeFits(join(dl, 'catalogue.fits'), catalogue, {
+    await writeFits(join(dl, 'catalogue.fits'), withFormatUnits(catalogue, 'fits', 'catalogue.fits'), {
       extname: 'CATALOGUE',
       date: config.releaseDate,
       keywords: { ORIGIN: `${TOOL.name} ${TOOL.version}`, RELEASE: config.version },
@@ -125,8 +126,9 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
   }
   try {
     const { writeVOTable } = await import('../io/votable.ts');
-    await writeVOTable(join(dl, 'catalogue.vot'), catalogue, {
+    await writeVOTable(join(dl, 'catalogue.vot'), withFormatUnits(catalogue, 'votable', 'catalogue.vot'), {
       resourceName: config.title,
+      tableName: 'catalogue',
       description: `${config.title}, version ${config.version}`,
       coosys: { id: 'icrs', system: 'ICRS' },
       raDecColumns: ['ra', 'dec'],

@@ -187,7 +187,7 @@ function extensionCards(table: Table, plans: FieldPlan[], rowBytes: number, opts
     const n = j + 1;
     add(`TTYPE${n}`, p.col.name, 'column name');
     add(`TFORM${n}`, p.tform);
-    if (p.col.unit) add(`TUNIT${n}`, p.col.unit, 'unit (IVOA VOUnits)');
+    if (p.col.unit) add(`TUNIT${n}`, p.col.unit, 'unit (FITS 4.0 sect. 4.3)');
     if (p.tnull !== undefined) add(`TNULL${n}`, p.tnull, 'value marking a null');
     if (p.col.ucd) add(`TUCD${n}`, p.col.ucd, 'IVOA UCD1+');
     if (p.col.description) add(`TCOMM${n}`, p.col.description);
