@@ -73,16 +73,16 @@ export function objectPageSlugs(): string[] {
   return viewerMode() ? [] : objectIndex().map((e) => e.slug);
 }
 
-/** The shard files of viewer mode (`objects/shards/<NNNNNN>.json`), names without folder, sorted. */
+/** The shard files of viewer mode (`objects/shards/<NNNNNN>.json.gz`), names without folder, sorted. */
 export function shardFiles(): string[] {
   const dir = join(contentDir(), 'objects', 'shards');
   if (!existsSync(dir)) return [];
-  return readdirSync(dir).filter((f) => /^\d{6}\.json$/.test(f)).sort();
+  return readdirSync(dir).filter((f) => /^\d{6}\.json\.gz$/.test(f)).sort();
 }
 
 /** Bytes of one shard file (name as listed by `shardFiles`), or null. */
 export function shardBytes(name: string): Buffer | null {
-  if (!/^\d{6}\.json$/.test(name)) return null;
+  if (!/^\d{6}\.json\.gz$/.test(name)) return null;
   const file = join(contentDir(), 'objects', 'shards', name);
   return existsSync(file) ? readFileSync(file) : null;
 }

@@ -100,7 +100,7 @@ export function objectMainHtml(o: ObjectContent, opts: ObjectPageOptions): strin
         (r) => html`<tr><th scope="row"><a href="${to(PATHS.relation(r.name))}">${r.title}</a></th><td class="n">${num(r.offset, 3)}</td><td class="n">${num(r.tension, 2)}</td><td>${r.outlier ? html`<span class="badge flag">outlier</span>` : 'no'}</td></tr>`,
       )}</tbody></table></div>`
     : '';
-  const draws = o.downloads.draws ? html`<li><a href="${to(PATHS.file(o.downloads.draws))}" download>Posterior draws</a> (weights and interim prior)</li>` : html`<li>Posterior draws: in the release's samples table (downloads)</li>`;
+  const draws = o.downloads.draws ? html`<li><a href="${to(PATHS.file(o.downloads.draws))}" download>Posterior draws</a> (FITS table: weights, parameters and interim prior)</li>` : html`<li>Posterior draws: in the release's samples table (downloads)</li>`;
   const phot = o.downloads.photometry ? html`<li><a href="${to(PATHS.file(o.downloads.photometry))}" download>Photometry</a></li>` : html`<li>Photometry: in the release's photometry table (downloads)</li>`;
   const extra = o.extra.length ? html`<h3>Other catalogue columns</h3><dl class="facts">${o.extra.map((e) => fact(e.name, e.value))}</dl>` : '';
   const neighbours = o.neighbours.length

@@ -20,7 +20,7 @@ export const PATHS = Object.freeze({
   changes: '/changes/',
   /** A file under `downloads/` (path below it, forward slashes). */
   download: (file: string) => `/downloads/${file.replace(/^\/+/, '')}`,
-  /** A file at a site-root-relative path such as `downloads/objects/x/draws.csv`. */
+  /** A file at a site-root-relative path such as `downloads/objects/x/draws.fits`. */
   file: (path: string) => `/${path.replace(/^\/+/, '')}`,
   notFound: '/404.html',
 });

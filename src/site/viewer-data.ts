@@ -4,7 +4,8 @@
  *
  *   lookup.json              { count, pageSize, shardSize, heads }: the first slug of each lookup page
  *   lookup-<NNNNNN>.json     [slug, catalogue index][] of one page, sorted by slug (code-unit order)
- *   shard-<NNNNNN>.json      the pipeline's shard `objects/shards/<NNNNNN>.json` as it is
+ *   shard-<NNNNNN>.json.gz   the pipeline's shard `objects/shards/<NNNNNN>.json.gz` as it is (gzip of
+ *                            `Shard`, src/lib/pipeline/object-codec.ts)
  *
  * The viewer finds an object in three small requests whatever the catalogue size: binary search
  * of `heads` for the page, binary search of the page for the slug, then shard floor(index /
@@ -57,7 +58,7 @@ export function viewerFile(name: string): Uint8Array | null {
     const entries = sortedEntries().slice(k * LOOKUP_PAGE, (k + 1) * LOOKUP_PAGE);
     return entries.length ? new TextEncoder().encode(JSON.stringify(entries)) : null;
   }
-  const shard = /^shard-(\d{6}\.json)$/.exec(name);
+  const shard = /^shard-(\d{6}\.json\.gz)$/.exec(name);
   if (shard) return shardBytes(shard[1]);
   return null;
 }

@@ -4,15 +4,18 @@
  * flags in words, the posterior table, the SED and the posterior matrix drawn by the same
  * spec builders the prerendered pages use, relation offsets and neighbours.
  *
- * The object comes from `?id=<id>` or from the path `…/objects/<slug>/` (the not-found page
- * serves those URLs in viewer mode and loads this page into itself; see 404.astro). All data
- * URLs resolve against `document.baseURI`, which is this page's folder in both cases.
+ * The object comes from `?id=<id>` (looked up by slug), or it is the object whose own page this
+ * is: every object has a page at `…/objects/<slug>/`, a copy of the viewer page that names the
+ * object's catalogue index and sets its base to the viewer's folder (written by the release
+ * build, `src/lib/release/object-pages.ts`), so it answers HTTP 200 on any static host. All
+ * data URLs resolve against `document.baseURI`, the viewer's folder in both cases.
  */
 import type { ObjectContent } from '../lib/pipeline/content.ts';
 import { idOfSlug, slugOf } from '../lib/core/slug.ts';
 import { objectFigures } from '../lib/charts/figures.ts';
 import { PATHS, rel } from './paths.ts';
 import { objectMainHtml } from './object-page.ts';
+import { decodeObject, SHARD_FORMAT, type Shard } from '../lib/pipeline/object-codec.ts';
 import type { ViewerLookup } from './viewer-data.ts';
 
 const HERE = '/objects/view/';
@@ -27,6 +30,23 @@ function h<K extends keyof HTMLElementTagNameMap>(tag: K, attrs: Record<string, 
 }
 
 const link = (to: string, text: string, attrs: Record<string, string> = {}) => h('a', { href: rel(HERE, to), ...attrs }, text);
+
+/**
+ * A shard: gzip, decompressed here (a host that sends the file with Content-Encoding gzip has
+ * already decompressed it, which the magic bytes tell).
+ */
+async function getShard(url: string): Promise<Shard> {
+  const res = await fetch(new URL(url, document.baseURI));
+  if (!res.ok) throw new Error(`${url}: HTTP ${res.status}`);
+  let bytes = new Uint8Array(await res.arrayBuffer());
+  if (bytes[0] === 0x1f && bytes[1] === 0x8b) {
+    if (typeof DecompressionStream === 'undefined') throw new Error('this browser cannot decompress the object data (DecompressionStream)');
+    bytes = new Uint8Array(await new Response(new Blob([bytes]).stream().pipeThrough(new DecompressionStream('gzip'))).arrayBuffer());
+  }
+  const shard = JSON.parse(new TextDecoder().decode(bytes)) as Shard;
+  if (shard.v !== SHARD_FORMAT) throw new Error(`${url}: shard format ${shard.v}, this viewer reads ${SHARD_FORMAT}`);
+  return shard;
+}
 
 async function getJson<T>(url: string): Promise<T> {
   const res = await fetch(new URL(url, document.baseURI));
@@ -87,6 +107,15 @@ export function renderObject(main: HTMLElement, o: ObjectContent, total: number,
   main.innerHTML = objectMainHtml(o, { here: HERE, total, priorEdgeMass, figures: objectFigures(o) });
 }
 
+/**
+ * An object's own page resolves its relative URLs against the viewer's folder (`<base>`), so
+ * in-page links (`#main`, `#sed`) are pointed back at this page.
+ */
+function keepFragmentLinks(): void {
+  const here = location.pathname + location.search;
+  for (const a of document.querySelectorAll<HTMLAnchorElement>('a[href^="#"]')) a.setAttribute('href', here + a.getAttribute('href'));
+}
+
 function notFound(main: HTMLElement, what: string): void {
   main.replaceChildren(
     h('h1', null, 'Object not found'),
@@ -115,7 +144,9 @@ export async function startViewer(root: HTMLElement): Promise<void> {
       return;
     }
     status.textContent = `Loading ${id}…`;
-    const where = await findObject(slug);
+    // an object's own page (objects/<slug>/) names its catalogue index; objects/view/?id= looks it up
+    const own = root.dataset.index !== undefined && !new URLSearchParams(location.search).has('id');
+    const where = own ? { index: Number(root.dataset.index), shardSize: Number(root.dataset.shardSize) } : await findObject(slug);
     if (!where) {
       if (slug === 'view' && !new URLSearchParams(location.search).has('id')) {
         status.textContent = 'Give an object id, e.g. objects/view/?id=<id>, or find the object in the catalogue.';
@@ -128,12 +159,13 @@ export async function startViewer(root: HTMLElement): Promise<void> {
       return;
     }
     const shard = Math.floor(where.index / where.shardSize);
-    const objects = await getJson<ObjectContent[]>(`shard-${String(shard).padStart(6, '0')}.json`);
-    const o = objects[where.index - shard * where.shardSize];
+    const objects = (await getShard(`shard-${String(shard).padStart(6, '0')}.json.gz`)).objects;
+    const o = objects[where.index - shard * where.shardSize] ? decodeObject(objects[where.index - shard * where.shardSize]) : null;
     if (!o || o.slug !== slug) throw new Error(`shard ${shard} does not hold object ${where.index}`);
     document.title = `${o.id} · ${siteTitle}`;
     status.textContent = '';
     renderObject(main, o, total, Number(root.dataset.priorEdgeMass ?? '0'));
+    keepFragmentLinks();
     root.dataset.state = 'ready';
     root.dataset.loadMs = (performance.now() - t0).toFixed(0);
   } catch (e) {

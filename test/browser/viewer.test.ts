@@ -1,9 +1,9 @@
 /**
  * Viewer mode in headless Chromium: a 300-object release with `site.objectPageLimit` 100 builds
- * no page per object; `objects/<slug>/` addresses are answered by the not-found page, which
- * loads the viewer, finds the object's shard through the slug lookup and draws the object
- * (facts, flags in words, parameter table, SED and corner charts) in the browser. Served under
- * two prefixes; the direct `objects/view/?id=` entry and a missing id are checked too.
+ * no full page per object but a small one at every `objects/<slug>/` address (HTTP 200), a copy
+ * of the viewer page that reads the object's shard and draws the object (facts, flags in words,
+ * parameter table, SED and posterior matrix) in the browser. Served under two prefixes; the
+ * direct `objects/view/?id=` entry and a missing id (the host's not-found page) are checked too.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
@@ -13,14 +13,16 @@ import { hasChromium } from '../helpers/chromium.ts';
 import { buildRelease, PROJECT_ROOT } from '../../src/lib/release/build.ts';
 import { generateDemoBundle } from '../../scripts/demo/generate.ts';
 import { serveStatic } from '../../scripts/serve.ts';
+import { gunzipSync } from 'node:zlib';
 import type { ObjectContent } from '../../src/lib/pipeline/content.ts';
+import { decodeObject, type Shard } from '../../src/lib/pipeline/object-codec.ts';
 import { launch, relativeLinks, screenshot, statuses, visit } from './helpers/browse.ts';
 
 const ROOT = join(PROJECT_ROOT, 'test-output', 'browser-viewer');
 const N = 300;
 const SHARD = 50;
-/** Object addresses: a static host answers them with the not-found page (status 404), which shows the object. */
-const OBJECT_ADDRESS = /\/objects\/[^/]+\/$/;
+/** An address of no object: the host answers it with the not-found page (status 404). */
+const MISSING = /\/objects\/NO-SUCH-OBJECT\/$/;
 
 describe.runIf(hasChromium())('viewer mode', () => {
   let browser: Browser;
@@ -37,7 +39,7 @@ describe.runIf(hasChromium())('viewer mode', () => {
     writeFileSync(join(bundle, 'release.json'), JSON.stringify(cfg, null, 2));
     await buildRelease(bundle, { out: join(ROOT, 'dist') });
     const view = join(ROOT, 'dist', 'objects', 'view');
-    for (const f of readdirSync(view).filter((x) => x.startsWith('shard-')).sort()) objects.push(...(JSON.parse(readFileSync(join(view, f), 'utf8')) as ObjectContent[]));
+    for (const f of readdirSync(view).filter((x) => x.startsWith('shard-')).sort()) objects.push(...(JSON.parse(gunzipSync(readFileSync(join(view, f))).toString('utf8')) as Shard).objects.map(decodeObject));
     servers.push(await serveStatic(join(ROOT, 'dist'), { base: '/' }), await serveStatic(join(ROOT, 'dist'), { base: '/p/q/' }));
     browser = await launch();
   }, 600_000);
@@ -47,10 +49,15 @@ describe.runIf(hasChromium())('viewer mode', () => {
     for (const s of servers) s.server.close();
   });
 
-  it('builds no page per object, and a lookup and shards instead', () => {
+  it('builds a small page per object, a lookup and gzipped shards', () => {
     const dist = join(ROOT, 'dist');
     const pages = readdirSync(join(dist, 'objects')).filter((d) => existsSync(join(dist, 'objects', d, 'index.html')));
-    expect(pages).toEqual(['view']);
+    expect(pages.sort()).toEqual(['view', ...objects.map((o) => o.slug)].sort());
+    const viewer = readFileSync(join(dist, 'objects', 'view', 'index.html'), 'utf8');
+    const own = readFileSync(join(dist, 'objects', objects[7].slug, 'index.html'), 'utf8');
+    expect(own).toContain('<base href="../view/">');
+    expect(own).toContain(`data-index="7"`);
+    expect(own.length).toBeLessThan(viewer.length + 200);
     expect(objects.length).toBe(N);
     expect(objects.map((o) => o.index)).toEqual(objects.map((_, i) => i));
     const lookup = JSON.parse(readFileSync(join(dist, 'objects', 'view', 'lookup.json'), 'utf8'));
@@ -65,9 +72,9 @@ describe.runIf(hasChromium())('viewer mode', () => {
       const server = servers[which];
       for (const k of [0, 137, N - 1]) {
         const o = objects[k];
-        const v = await visit(browser, `${server.url}objects/${o.slug}/`, { expect404: OBJECT_ADDRESS, wait: ready });
+        const v = await visit(browser, `${server.url}objects/${o.slug}/`, { wait: ready });
         const p = v.page;
-        expect(v.status).toBe(404);
+        expect(v.status).toBe(200);
         expect(await p.getAttribute('#viewer', 'data-state')).toBe('ready');
         expect(new URL(p.url()).pathname).toBe(`${new URL(server.url).pathname}objects/${o.slug}/`);
         expect(await p.textContent('main h1')).toBe(o.id);
@@ -87,17 +94,12 @@ describe.runIf(hasChromium())('viewer mode', () => {
         expect(v.errors).toEqual([]);
         expect(v.failed).toEqual([]);
         expect(v.external).toEqual([]);
-        // every relative link: site pages answer 200; object links are viewer addresses of real objects
-        const slugs = new Set(objects.map((x) => x.slug));
+        // every relative link answers 200, object pages included; in-page links stay on this page
         const links = await relativeLinks(p);
         const st = await statuses(links);
-        for (const [u, code] of st) {
-          const m = /\/objects\/([^/]+)\/$/.exec(new URL(u).pathname);
-          if (m && m[1] !== 'view') {
-            expect(slugs.has(m[1])).toBe(true);
-            expect(code).toBe(404);
-          } else expect(`${code} ${u}`).toBe(`200 ${u}`);
-        }
+        for (const [u, code] of st) expect(`${code} ${u}`).toBe(`200 ${u}`);
+        const fragments = await p.$$eval('a[href*="#"]', (as) => as.map((a) => (a as HTMLAnchorElement).href));
+        for (const f of fragments) expect(new URL(f).pathname).toBe(new URL(p.url()).pathname);
         if (k === 137) {
           await screenshot(p, `viewer-1280${which ? '-prefixed' : ''}`);
           await Promise.all([p.waitForURL(new RegExp(`objects/${objects[k + 1].slug}/$`)), p.click('a[rel=next]')]);
@@ -118,8 +120,8 @@ describe.runIf(hasChromium())('viewer mode', () => {
     expect(v.errors).toEqual([]);
     expect(v.failed).toEqual([]);
     await v.page.close();
-    const w = await visit(browser, `${server.url}objects/NO-SUCH-OBJECT/`, { expect404: OBJECT_ADDRESS, wait: ready });
-    expect(await w.page.getAttribute('#viewer', 'data-state')).toBe('missing');
+    const w = await visit(browser, `${server.url}objects/NO-SUCH-OBJECT/`, { expect404: MISSING });
+    expect(w.status).toBe(404);
     expect(await w.page.textContent('main')).toContain('There is no object with id “NO-SUCH-OBJECT”');
     expect(w.errors).toEqual([]);
     expect(w.failed).toEqual([]);
@@ -128,11 +130,11 @@ describe.runIf(hasChromium())('viewer mode', () => {
 
   it('looks right at phone width, and the explorer links into the viewer', async () => {
     const server = servers[1];
-    const v = await visit(browser, `${server.url}objects/${objects[137].slug}/`, { width: 390, expect404: OBJECT_ADDRESS, wait: ready });
+    const v = await visit(browser, `${server.url}objects/${objects[137].slug}/`, { width: 390, wait: ready });
     await screenshot(v.page, 'viewer-390');
     expect(await v.page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(392);
     await v.page.close();
-    const c = await visit(browser, `${server.url}catalogue/`, { expect404: OBJECT_ADDRESS, wait: (p) => p.waitForSelector('#explorer[data-ready="1"]') });
+    const c = await visit(browser, `${server.url}catalogue/`, { wait: (p) => p.waitForSelector('#explorer[data-ready="1"]') });
     await Promise.all([c.page.waitForURL(new RegExp(`objects/${objects[0].slug}/$`)), c.page.click('#explorer tbody a[data-pos="0"]')]);
     await ready(c.page);
     expect(await c.page.textContent('main h1')).toBe(objects[0].id);

@@ -48,9 +48,9 @@ describe('prerenderFigures', () => {
     const g1 = JSON.parse(fa.get('objects/GAL-0001.json')!);
     expect(g1.sed).toMatch(/^<svg/);
     expect(g1.sedMag).toMatch(/^<svg/);
-    expect(g1.corner).toMatch(/^<svg/);
-    // the summaries-only object has a SED but no corner plot
-    expect(JSON.parse(fa.get('objects/9007199254740993.json')!).corner).toBeNull();
+    expect(g1.posterior).toMatch(/^<svg/);
+    // the summaries-only object has a SED but no posterior matrix
+    expect(JSON.parse(fa.get("objects/9007199254740993.json")!).posterior).toBeNull();
     // site figures whose spec did not change are reused; object figures are always drawn (cheaper than checking)
     const again = await prerenderFigures(a, { workers: 2 });
     const objectFigures = [...fa.keys()].filter((k) => k.startsWith('objects/')).length;

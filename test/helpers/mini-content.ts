@@ -29,6 +29,7 @@ import type {
   SiteContent,
 } from '../../src/lib/pipeline/content.ts';
 import { writeArrow } from '../../src/lib/io/arrow.ts';
+import { fitsBytes } from '../../src/lib/io/fits/write.ts';
 
 export interface MiniOptions {
   /** Mock release: objects carry true values and quality has calibration. */
@@ -291,7 +292,7 @@ function objectContent(f: Fake, i: number, mock: boolean): ObjectContent {
     prev,
     next,
     extra: [{ name: 'field', value: f.id.startsWith('GAL') ? 'north <b>&amp;</b>' : 'south' }],
-    downloads: f.summariesOnly ? { draws: null, photometry: null } : { draws: `downloads/objects/${slug}/draws.csv`, photometry: `downloads/objects/${slug}/photometry.csv` },
+    downloads: f.summariesOnly ? { draws: null, photometry: null } : { draws: `downloads/objects/${slug}/draws.fits`, photometry: `downloads/objects/${slug}/photometry.csv` },
   };
 }
 
@@ -535,7 +536,7 @@ export async function writeMiniContent(dir: string, opts: MiniOptions = {}): Pro
   for (const o of objects) {
     if (!o.downloads.draws) continue;
     await mkdir(join(dir, 'downloads', 'objects', o.slug), { recursive: true });
-    await writeFile(join(dir, 'downloads', 'objects', o.slug, 'draws.csv'), 'weight,log_mass\n1,10\n');
+    await writeFile(join(dir, 'downloads', 'objects', o.slug, 'draws.fits'), fitsBytes({ numRows: 1, columns: [{ name: 'weight', kind: 'float32', values: Float32Array.of(1) }, { name: 'log_mass', kind: 'float32', values: Float32Array.of(10) }] }, { extname: 'DRAWS' }));
     await writeFile(join(dir, 'downloads', 'objects', o.slug, 'photometry.csv'), 'band,flux\nu,1\n');
   }
 }

@@ -222,7 +222,7 @@ describeWithPython('astropy opens every download without a single warning', ['as
       const files = astropyReadable(dir);
       const formats = new Set(files.map((f) => f[1]));
       for (const f of ['votable', 'fits', 'ascii.csv'] as const) expect(formats.has(f), f).toBe(true);
-      expect(files.some((f) => f[0].includes('/objects/') && f[0].endsWith('draws.csv.gz')), 'per-object draws').toBe(true);
+      expect(files.some((f) => f[0].includes('/objects/') && f[0].endsWith('draws.fits')), 'per-object draws').toBe(true);
       const got = astropyRead(files);
       const warned = got.filter((r) => r.warnings.length).map((r) => ({ file: r.path.slice(dir.length + 1), warnings: r.warnings }));
       expect(warned).toEqual([]);

@@ -14,6 +14,8 @@ import { writeCsv, cellText } from '../io/csv.ts';
 import { writeArrow } from '../io/arrow.ts';
 import type { DownloadEntry } from './content.ts';
 import { slugOf } from '../core/slug.ts';
+import { fitsBytes } from '../io/fits/write.ts';
+import { withFormatUnits } from '../io/units.ts';
 
 export const FORMAT_NOTES: Record<string, { format: string; notes: string }> = {
   'catalogue.csv': { format: 'CSV (RFC 4180)', notes: 'one header row; empty fields are missing values; units and descriptions are on the Columns page' },
@@ -51,14 +53,19 @@ export function objectDownloadPaths(bundle: Bundle, i: number): { draws: string 
   const hasDraws = !!bundle.samples && bundle.samples.offsets[i + 1] > bundle.samples.offsets[i];
   const hasPhot = !!bundle.photometry && bundle.photometry.offsets[i + 1] > bundle.photometry.offsets[i];
   return {
-    draws: hasDraws ? `downloads/objects/${slug}/draws.csv.gz` : null,
+    draws: hasDraws ? `downloads/objects/${slug}/draws.fits` : null,
     photometry: hasPhot ? `downloads/objects/${slug}/photometry.csv` : null,
   };
 }
 
 const g = (v: number) => (Number.isFinite(v) ? String(Number(v.toPrecision(7))) : '');
 
-/** Write one object's draws and photometry as small CSV files. */
+/**
+ * Write one object's draws and photometry: the draws as a FITS binary table (columnar, the
+ * format every astronomy reader takes) in single precision, whose 7 significant digits are
+ * finer than any posterior draw's meaning (the published summaries are computed from the full
+ * precision draws); the few photometry rows as CSV.
+ */
 export async function writeObjectDownloads(outDir: string, bundle: Bundle, i: number): Promise<void> {
   const paths = objectDownloadPaths(bundle, i);
   const { samples, photometry, config } = bundle;
@@ -66,28 +73,29 @@ export async function writeObjectDownloads(outDir: string, bundle: Bundle, i: nu
   const dir = join(outDir, 'objects', slugOf(bundle.objects.id[i]));
   await mkdir(dir, { recursive: true });
   if (paths.draws && samples) {
-    const names = config.parameters.map((p) => p.name);
-    const head = ['weight', ...names, ...(samples.logPrior ? ['log_prior'] : [])];
     const a = samples.offsets[i], b = samples.offsets[i + 1];
+    const n = b - a;
     const src = samples.weight ?? samples.logWeight!;
-    // normalised weights
+    // normalised weights (log weights shifted by their largest before exponentiating)
     let max = -Infinity;
     if (!samples.weight) for (let r = a; r < b; r++) max = Math.max(max, src[samples.order[r]]);
-    const raw = new Float64Array(b - a);
+    const raw = new Float64Array(n);
     let sum = 0;
-    for (let r = a; r < b; r++) {
-      const v = samples.weight ? src[samples.order[r]] : Math.exp(src[samples.order[r]] - max);
-      raw[r - a] = v;
-      sum += v;
-    }
-    let text = head.join(',') + '\n';
-    for (let r = a; r < b; r++) {
-      const row = samples.order[r];
-      const cells = [g(raw[r - a] / sum), ...samples.params.map((p) => g(p[row]))];
-      if (samples.logPrior) cells.push(g(samples.logPrior[row]));
-      text += cells.join(',') + '\n';
-    }
-    await writeFile(join(dir, 'draws.csv.gz'), gzipSync(Buffer.from(text), { level: 1 }));
+    for (let r = a; r < b; r++) sum += raw[r - a] = samples.weight ? src[samples.order[r]] : Math.exp(src[samples.order[r]] - max);
+    const weight = new Float32Array(n);
+    for (let k = 0; k < n; k++) weight[k] = raw[k] / sum;
+    const column = (values: ArrayLike<number>) => {
+      const out = new Float32Array(n);
+      for (let r = a; r < b; r++) out[r - a] = values[samples.order[r]];
+      return out;
+    };
+    const columns: Column[] = [
+      { name: 'weight', kind: 'float32', values: weight, ucd: 'stat.weight', description: 'importance weight, normalised to sum to 1 for this object' },
+      ...config.parameters.map((p, j): Column => ({ name: p.name, kind: 'float32', values: column(samples.params[j]), unit: p.unit || undefined, ucd: p.ucd, description: p.description })),
+    ];
+    if (samples.logPrior) columns.push({ name: 'log_prior', kind: 'float32', values: column(samples.logPrior), description: 'natural log of the interim prior density of the draw' });
+    const table = withFormatUnits({ numRows: n, columns }, 'fits', paths.draws);
+    await writeFile(join(dir, 'draws.fits'), fitsBytes(table, { extname: 'DRAWS', date: config.releaseDate, keywords: { OBJECT: bundle.objects.id[i] }, comments: [`Posterior draws of ${bundle.objects.id[i]}, ${config.title} version ${config.version}`] }, paths.draws));
   }
   if (paths.photometry && photometry) {
     let text = 'band,flux,flux_err,model_flux,upper_limit,limit_nsigma\n';

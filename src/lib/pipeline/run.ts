@@ -15,6 +15,7 @@ import { summariseAll, type ObjectCharts } from './summarise.ts';
 import { runPopulation, roleIndex } from './population.ts';
 import { buildCatalogue } from './catalogue.ts';
 import { objectContent, objectIndexEntries, nearestNeighbours } from './objects.ts';
+import { encodeObject, SHARD_FORMAT } from './object-codec.ts';
 import { renderMarkdown } from './markdown.ts';
 import { objectDownloadPaths, samplesTable, writeChecksums, writeJson, writeObjectDownloads } from './downloads.ts';
 import { writeCsv, cellText } from '../io/csv.ts';
@@ -217,9 +218,10 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
   for (let i = 0; i < n; i++) {
     const oc = objectContent(ctx, i, charts.take(i));
     if (viewer) {
-      shard.push(JSON.stringify(oc));
+      shard.push(JSON.stringify(encodeObject(oc)));
       if (shard.length === shardSize || i === n - 1) {
-        await writeFile(join(contentDir, 'objects', 'shards', `${shardName(Math.floor(i / shardSize))}.json`), `[${shard.join(',')}]`);
+        // one gzip stream a shard: the objects' repeated labels and numbers compress together
+        await writeFile(join(contentDir, 'objects', 'shards', `${shardName(Math.floor(i / shardSize))}.json.gz`), gzipSync(`{"v":${SHARD_FORMAT},"objects":[${shard.join(',')}]}`, { level: 6 }));
         shard = [];
       }
     } else {

@@ -7,10 +7,11 @@
 import { spawn } from 'node:child_process';
 import { existsSync, readFileSync, rmSync } from 'node:fs';
 import { cp, mkdir, rename, rm } from 'node:fs/promises';
-import { basename, dirname, join, resolve } from 'node:path';
+import { basename, dirname, join, resolve, sep } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { runPipeline, type PipelineOptions } from '../pipeline/run.ts';
 import { PosterityError } from '../core/problems.ts';
+import type { ObjectIndexEntry } from '../pipeline/content.ts';
 import { publishedVersion, sameContent } from './immutable.ts';
 
 export const PROJECT_ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
@@ -153,6 +154,25 @@ function replaceProblem(out: string, held: string, building: string) {
   };
 }
 
+/**
+ * The site stage: the Astro build of a content folder (figures already prerendered) into
+ * `siteDir`, then, in viewer mode, every object's own page cut from the built viewer page.
+ */
+export async function buildSite(contentDir: string, siteDir: string, log: (line: string) => void = () => {}, opts: { objectPagesFor?: (e: ObjectIndexEntry) => boolean } = {}): Promise<void> {
+  await run(process.execPath, [join(PROJECT_ROOT, 'node_modules/astro/astro.js'), 'build', '--silent'], { POSTERITY_CONTENT: contentDir, POSTERITY_OUT: siteDir, ASTRO_TELEMETRY_DISABLED: '1' }, log);
+  const site = JSON.parse(readFileSync(join(contentDir, 'site.json'), 'utf8')) as { title: string; objectPages?: { mode: string } };
+  if (site.objectPages?.mode === 'viewer') {
+    const { writeObjectPages } = await import('./object-pages.ts');
+    const index = JSON.parse(readFileSync(join(contentDir, 'objects', 'index.json'), 'utf8')) as ObjectIndexEntry[];
+    await writeObjectPages(siteDir, opts.objectPagesFor ? index.filter(opts.objectPagesFor) : index, site.title);
+  }
+}
+
+/** Object figures are drawn every build (cheaper than checking), so the figure cache skips them. */
+function isObjectFigures(path: string, figures: string): boolean {
+  return path === join(figures, 'objects') || path.startsWith(join(figures, 'objects') + sep);
+}
+
 export async function buildRelease(bundleDir: string, opts: BuildOptions): Promise<BuildSummary> {
   const t0 = Date.now();
   const out = resolve(opts.out);
@@ -180,7 +200,7 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     const { prerenderFigures } = await import('../charts/prerender.ts');
     // figures of the previous build of this output are reused where their spec did not change
     const figureCache = join(cacheDir, 'figures');
-    if (existsSync(figureCache)) await cp(figureCache, join(contentDir, 'figures'), { recursive: true });
+    if (existsSync(figureCache)) await cp(figureCache, join(contentDir, 'figures'), { recursive: true, filter: (src) => !isObjectFigures(src, figureCache) });
     const fig = await prerenderFigures(contentDir, {});
     if (existsSync(join(contentDir, 'changes.json'))) {
       // the comparison's figures (charts/changes.ts)
@@ -195,7 +215,7 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     opts.progress?.('figures', 1, 1);
     opts.progress?.('site', 0, 1);
     const siteDir = join(stage, 'site');
-    await run(process.execPath, [join(PROJECT_ROOT, 'node_modules/astro/astro.js'), 'build', '--silent'], { POSTERITY_CONTENT: contentDir, POSTERITY_OUT: siteDir, ASTRO_TELEMETRY_DISABLED: '1' }, log);
+    await buildSite(contentDir, siteDir, log);
     opts.progress?.('site', 1, 1);
     if (!existsSync(join(siteDir, 'downloads', 'SHA256SUMS'))) throw new Error('the site build did not copy the downloads');
     if (held !== null) {
@@ -219,7 +239,7 @@ export async function buildRelease(bundleDir: string, opts: BuildOptions): Promi
     // keep the figures for the next build, then swap into place
     await rm(figureCache, { recursive: true, force: true });
     await mkdir(dirname(figureCache), { recursive: true });
-    if (existsSync(join(contentDir, 'figures'))) await cp(join(contentDir, 'figures'), figureCache, { recursive: true });
+    if (existsSync(join(contentDir, 'figures'))) await cp(join(contentDir, 'figures'), figureCache, { recursive: true, filter: (src) => !isObjectFigures(src, join(contentDir, 'figures')) });
     // swap into place
     const old = join(dirname(out), `.posterity-old-${basename(out)}-${process.pid}`);
     if (existsSync(out)) await rename(out, old);

@@ -9,6 +9,8 @@ import { readFileSync, writeFileSync, mkdirSync } from 'node:fs';
 import { join } from 'node:path';
 import { writeMiniContent } from '../../helpers/mini-content.ts';
 import { writeArrow } from '../../../src/lib/io/arrow.ts';
+import { gzipSync } from 'node:zlib';
+import { encodeObject, SHARD_FORMAT } from '../../../src/lib/pipeline/object-codec.ts';
 import { slugOf } from '../../../src/lib/core/slug.ts';
 import type { ObjectContent, ObjectIndexEntry, SiteContent } from '../../../src/lib/pipeline/content.ts';
 
@@ -125,6 +127,6 @@ export async function writeBigContent(dir: string, n: number): Promise<BigCatalo
     shard.push(o);
   }
   mkdirSync(join(dir, 'objects', 'shards'), { recursive: true });
-  writeFileSync(join(dir, 'objects', 'shards', '000000.json'), JSON.stringify(shard));
+  writeFileSync(join(dir, 'objects', 'shards', '000000.json.gz'), gzipSync(JSON.stringify({ v: SHARD_FORMAT, objects: shard.map(encodeObject) })));
   return { n, id, ra, dec, redshift, flags, population, logMass, wrap, shardSize };
 }

@@ -274,3 +274,33 @@ export async function writeFits(filePath: string, table: Table, opts: WriteFitsO
     throw e;
   }
 }
+
+/**
+ * A small table as the bytes of a whole FITS file (the same bytes `writeFits` writes), built in
+ * memory: for per-object files, where opening, writing in chunks and renaming would cost more
+ * than the encoding. `file` names the table in errors.
+ */
+export function fitsBytes(table: Table, opts: WriteFitsOptions, file = 'table.fits'): Uint8Array {
+  checkColumns(table, file);
+  if (opts.date !== undefined) checkDate(opts.date, file);
+  const n = table.numRows;
+  const plans = table.columns.map((c) => planField(c, n, file, opts.strings));
+  const rowBytes = plans.reduce((s, p) => s + p.width, 0);
+  const offsets: number[] = [];
+  plans.reduce((o, p) => (offsets.push(o), o + p.width), 0);
+  const head = headerBytes(primaryCards(opts.date));
+  const ext = headerBytes(extensionCards(table, plans, rowBytes, opts, file));
+  const dataBytes = n * rowBytes;
+  const padded = dataBytes + ((BLOCK - (dataBytes % BLOCK)) % BLOCK);
+  const out = new Uint8Array(head.length + ext.length + padded);
+  out.set(head, 0);
+  out.set(ext, head.length);
+  const data = out.subarray(head.length + ext.length);
+  const view = new DataView(data.buffer, data.byteOffset, data.byteLength);
+  let o = 0;
+  for (let i = 0; i < n; i++) {
+    for (let j = 0; j < plans.length; j++) plans[j]!.encode(view, data, o + offsets[j]!, i);
+    o += rowBytes;
+  }
+  return out;
+}
