@@ -48,7 +48,7 @@ export function flagsSpec(q: QualityContent): TopLevelSpec {
     data: { values },
     layer: [
       {
-        mark: { type: 'bar', color: COLOURS.blue },
+        mark: { type: 'bar', color: COLOURS.blue, fillOpacity: 0.28, stroke: COLOURS.blue, strokeWidth: 1.2 },
         encoding: {
           y: { field: 'label', type: 'nominal', sort: null, axis: { title: null, labelLimit: 400 } },
           x: { field: 'fraction', type: 'quantitative', axis: { title: 'Fraction of objects', format: '.0%', grid: true, tickCount: 5 } },
@@ -123,7 +123,7 @@ export function pitSpec(q: QualityContent): TopLevelSpec {
       height: 120,
       layer: [
         {
-          mark: { type: 'rect', color: COLOURS.blue, opacity: 0.85, stroke: COLOURS.paper, strokeWidth: 0.5 },
+          mark: { type: 'rect', color: COLOURS.blue, fillOpacity: 0.28, stroke: COLOURS.blue, strokeWidth: 1 },
           encoding: {
             x: { field: 'lo', type: 'quantitative', scale: { domain: [0, 1] }, axis: { title: 'PIT', tickCount: 5 } },
             x2: { field: 'hi' },
