@@ -5,7 +5,7 @@
  * the content folder's `downloads/` into the output. Files are visited in sorted order and
  * rewritten byte-for-byte deterministically.
  */
-import { copyFileSync, existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import { copyFileSync, existsSync, linkSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { join, relative, sep } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { AstroIntegration } from 'astro';
@@ -32,8 +32,26 @@ const SRCSET = /(\ssrcset=)("|')([^"']*)\2/g;
 const CSS_URL = /url\(\s*("|'|)\/(?!\/)([^"')]*)\1\s*\)/g;
 const IMPORT = /((?:import|from)\s*\(?\s*)("|')\/(?!\/)(_astro\/[^"']*)\2/g;
 
-/** Rewrite root-absolute references in one HTML or CSS text (exported for tests). */
+/** Whether a text can hold a root-absolute reference at all (a cheap scan before the regular expressions). */
+const MAYBE = /=["']\/(?!\/)|url\(\s*["']?\/(?!\/)|srcset=|["']\/_astro\//;
+
+/**
+ * Rewrite root-absolute references in one HTML or CSS text (exported for tests). An HTML page's
+ * head (where Astro puts its asset links) is always rewritten; the body only when a scan finds
+ * something to rewrite, since pages link relatively and their inline figures are long.
+ */
 export function relativise(text: string, filePath: string, kind: 'html' | 'css' | 'js'): string {
+  if (kind === 'html') {
+    const end = text.indexOf('</head>');
+    if (end >= 0) {
+      const head = text.slice(0, end), body = text.slice(end);
+      return rewrite(head, filePath, kind) + (MAYBE.test(body) ? rewrite(body, filePath, kind) : body);
+    }
+  }
+  return rewrite(text, filePath, kind);
+}
+
+function rewrite(text: string, filePath: string, kind: 'html' | 'css' | 'js'): string {
   const from = urlPathOf(filePath);
   const to = (p: string) => rel(from, '/' + p);
   let s = text.replace(CSS_URL, (_m, q: string, p: string) => `url(${q}${to(p)}${q})`);
@@ -52,12 +70,28 @@ export function relativise(text: string, filePath: string, kind: 'html' | 'css' 
   return s;
 }
 
+/**
+ * Copy a folder's files into another: hard links where both are on one file system (a release
+ * build stages both side by side, and the downloads of 10^5 objects are hundreds of thousands
+ * of files), else copies. The linked files are never written again, so sharing them is safe.
+ */
 function copyTree(src: string, dst: string): number {
   let n = 0;
+  let link = true;
   for (const f of walk(src)) {
     const target = join(dst, ...f.split('/'));
     mkdirSync(join(target, '..'), { recursive: true });
-    copyFileSync(join(src, ...f.split('/')), target);
+    const from = join(src, ...f.split('/'));
+    if (link) {
+      try {
+        linkSync(from, target);
+        n++;
+        continue;
+      } catch {
+        link = false;
+      }
+    }
+    copyFileSync(from, target);
     n++;
   }
   return n;
