@@ -305,6 +305,39 @@ export function quantileSorted(s: SortedDraws, prob: number): number {
 }
 
 /**
+ * `quantileSorted` at several probabilities in one walk over the draws: `probs` must be
+ * ascending; out[at + k] is exactly `quantileSorted(s, probs[k])` (the same operations in the
+ * same order), so one pass serves the published percentiles and the quartiles together.
+ */
+export function quantilesSorted(s: SortedDraws, probs: ArrayLike<number>, out: Float64Array, at = 0): void {
+  const n = s.n;
+  const K = probs.length;
+  if (n === 0) {
+    for (let q = 0; q < K; q++) out[at + q] = NaN;
+    return;
+  }
+  const { x, w } = s;
+  const total = s.total;
+  let q = 0;
+  let posPrev = 0.5 * w[0];
+  while (q < K && probs[q] * total <= posPrev) out[at + q++] = x[0];
+  let cPrev = w[0];
+  for (let i = 1; i < n && q < K; i++) {
+    const pos = cPrev + 0.5 * w[i];
+    while (q < K) {
+      const target = probs[q] * total;
+      if (!(target <= pos)) break;
+      const f = (target - posPrev) / (pos - posPrev);
+      out[at + q++] = x[i - 1] + f * (x[i] - x[i - 1]);
+    }
+    posPrev = pos;
+    cPrev += w[i];
+  }
+  // NaN probabilities (never <= anything) give NaN, as in quantileSorted; the rest the largest draw
+  for (; q < K; q++) out[at + q] = Number.isNaN(probs[q]) ? NaN : x[n - 1];
+}
+
+/**
  * Shortest interval [x_i, x_j] of sorted draws whose summed weight is at least `level` of the
  * total (Chen & Shao 1999 sample-based HPD interval, with weights). For a multimodal posterior
  * this is the shortest single interval, which may span a gap between modes.
@@ -417,8 +450,15 @@ export function summarise(x: Float64Array, w: Float64Array): ParamSummary {
   return summariseSorted(sortDraws(x, w, workspace));
 }
 
-/** `summarise` of draws already sorted by `sortDraws` (so that one sort can serve several uses). */
-export function summariseSorted(s: SortedDraws): ParamSummary {
+/** Probabilities of the published percentiles and the quartiles, ascending (one `quantilesSorted` walk). */
+export const SUMMARY_PROBS = Object.freeze([0.025, 0.16, 0.25, 0.5, 0.75, 0.84, 0.975]);
+const walk = new Float64Array(SUMMARY_PROBS.length);
+
+/**
+ * Mean and standard deviation of sorted draws (sums in sorted order, normalised by the total
+ * weight), written to out[at], out[at + 1].
+ */
+export function meanStdSorted(s: SortedDraws, out: Float64Array, at = 0): void {
   const n = s.n;
   const sx = s.x;
   const sw = s.w;
@@ -430,14 +470,23 @@ export function summariseSorted(s: SortedDraws): ParamSummary {
     const d = sx[i] - mean;
     ss += sw[i] * d * d;
   }
+  out[at] = mean;
+  out[at + 1] = Math.sqrt(ss / s.total);
+}
+
+/** `summarise` of draws already sorted by `sortDraws` (so that one sort can serve several uses). */
+export function summariseSorted(s: SortedDraws): ParamSummary {
+  const ms = new Float64Array(2);
+  meanStdSorted(s, ms);
+  quantilesSorted(s, SUMMARY_PROBS, walk);
   return {
-    mean,
-    std: Math.sqrt(ss / s.total),
-    p025: quantileSorted(s, 0.025),
-    p16: quantileSorted(s, 0.16),
-    p50: quantileSorted(s, 0.5),
-    p84: quantileSorted(s, 0.84),
-    p975: quantileSorted(s, 0.975),
+    mean: ms[0],
+    std: ms[1],
+    p025: walk[0],
+    p16: walk[1],
+    p50: walk[3],
+    p84: walk[5],
+    p975: walk[6],
     hdi68: hdiSorted(s, 0.68),
     hdi95: hdiSorted(s, 0.95),
   };
