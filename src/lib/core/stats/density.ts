@@ -7,7 +7,7 @@
  */
 import { kishEss } from './weights.ts';
 import { quantileSorted, sortDraws, weightedStd, type SortedDraws } from './summary.ts';
-import { convolveSymmetric, scratch, smooth2d } from './simd.ts';
+import { alloc, binLinear1d, convolveSymmetric, memory, place, release, smooth2d } from './simd.ts';
 
 export type HistogramRule = 'fd' | 'scott' | 'fixed';
 
@@ -170,6 +170,8 @@ export const KDE_MESH_RATIO = 8;
 export const KDE_KERNEL_CUT = 5;
 /** Largest mesh before `kde` falls back to direct summation (our choice; 8 MB of doubles). */
 const MAX_MESH = 1 << 20;
+/** Scratch slots (`simd.ts`) a binned KDE on at most `grid` nodes may allocate beyond its draws: mesh M <= MAX_MESH, taps L + 1 <= M / 2 + 1, output. */
+export const kdeScratchSlots = (grid: number) => MAX_MESH + (MAX_MESH >> 1) + grid + 2;
 
 /** Guaranteed bound on |binned KDE - direct KDE| at bandwidth h (see `KDE_MESH_RATIO`). */
 export function kdeErrorBound(h: number): number {
@@ -191,32 +193,26 @@ function binnedKdeUniform(x: Float64Array, w: Float64Array, g0: number, step: nu
   const L = Math.ceil((KDE_KERNEL_CUT * h) / delta);
   const M = (G - 1) * r + 1 + 2 * L;
   if (!(M <= MAX_MESH)) return null;
-  // scratch layout: mesh [0, M), kernel [M, M + L + 1), output [M + L + 1, + G)
-  const mem = scratch(M + L + 1 + G);
-  const ker = M;
-  const at = M + L + 1;
-  mem.fill(0, 0, M);
+  const base = alloc(0);
+  const px = place(x);
+  const pw = place(w);
+  // mesh, kernel taps, output
+  const mesh = alloc(M + L + 1 + G);
+  const ker = mesh + M;
+  const at = ker + L + 1;
+  memory().fill(0, mesh, mesh + M);
   const origin = g0 - L * delta;
-  const inv = 1 / delta;
-  let total = 0;
-  for (let i = 0; i < x.length; i++) {
-    const wi = w[i];
-    if (!(wi > 0)) continue;
-    total += wi;
-    const pos = (x[i] - origin) * inv;
-    if (!(pos >= 0 && pos < M - 1)) continue; // farther than the kernel cut from every node (or NaN)
-    const j = Math.floor(pos);
-    const f = pos - j;
-    mem[j] += wi * (1 - f);
-    mem[j + 1] += wi * f;
-  }
+  const total = binLinear1d(px, pw, x.length, origin, 1 / delta, M, mesh);
+  const mem = memory();
   const c = INV_SQRT_2PI / (h * total);
   for (let d = 0; d <= L; d++) {
     const u = (d * delta) / h;
     mem[ker + d] = c * Math.exp(-0.5 * u * u);
   }
-  convolveSymmetric(mem, 0, ker, at, G, L, r);
-  return mem.slice(at, at + G);
+  convolveSymmetric(mesh, ker, at, G, L, r);
+  const out = mem.slice(at, at + G);
+  release(base);
+  return out;
 }
 
 /**
@@ -398,8 +394,8 @@ export function gaussianHalfTaps(sigma: number): Float64Array {
 }
 
 /**
- * A grid of nx x ny cells binned by `fill` (cell (i, j) at origin + j stride + i of the
- * scratch memory, zero before) and smoothed separably with the symmetric taps kx and ky
+ * A grid of nx x ny cells binned by `fill` (cell (i, j) at origin + j stride + i of
+ * `memory()`, zero before; `fill` must not allocate there) and smoothed separably with the symmetric taps kx and ky
  * (`smooth2d`: the grid embedded in zeros, so mass smoothed past the edges is lost), written
  * row-major into `out`. One tap ([1]) on both axes leaves the bins as they are.
  */
@@ -416,25 +412,29 @@ export function smoothedGrid(
   const nxe = nx + (nx & 1); // the SIMD loop takes columns in pairs; an odd grid gets a spare zero column
   const stride = nxe + 2 * lx;
   const size = stride * (ny + 2 * ly);
-  // scratch layout: bins [0, size), row-smoothed [size, 2 size), smoothed [2 size, + nxe ny), taps
-  const res = 2 * size;
+  // bins, row-smoothed bins, smoothed grid, taps
+  const bins = alloc(2 * size + nxe * ny + lx + ly + 2);
+  const rows = bins + size;
+  const res = rows + size;
   const taps = res + nxe * ny;
-  const m = scratch(taps + lx + ly + 2);
-  m.fill(0, 0, res);
-  const origin = ly * stride + lx;
+  const m = memory();
+  m.fill(0, bins, res);
+  const origin = bins + ly * stride + lx;
   fill(m, origin, stride);
   if (lx === 0 && ly === 0) {
     for (let j = 0; j < ny; j++) out.set(m.subarray(origin + j * stride, origin + j * stride + nx), j * nx);
+    release(bins);
     return;
   }
   m.set(kx, taps);
   m.set(ky, taps + lx + 1);
-  smooth2d(m, 0, size, res, nxe, ny, taps, lx, taps + lx + 1, ly);
+  smooth2d(bins, rows, res, nxe, ny, taps, lx, taps + lx + 1, ly);
   if (nxe === nx) out.set(m.subarray(res, res + nx * ny));
   else for (let j = 0; j < ny; j++) out.set(m.subarray(res + j * nxe, res + j * nxe + nx), j * nx);
+  release(bins);
 }
 
-const LEVEL_BUCKETS = 1024;
+const LEVEL_BUCKETS = 256;
 const levelMass = new Float64Array(LEVEL_BUCKETS);
 let levelVals = new Float64Array(0);
 let levelBucket = new Int16Array(0);
@@ -443,7 +443,7 @@ let levelBucket = new Int16Array(0);
  * Density thresholds whose superlevel sets enclose each fraction in `masses` of the total:
  * cells taken by density, descending, and accumulated until the mass is reached; the level
  * is the density of the cell that reaches it. Returned in the order of `masses`. Instead of
- * sorting every cell, the cells are counted into 1024 buckets of equal density width and only
+ * sorting every cell, the cells are counted into 256 buckets of equal density width and only
  * the bucket where the mass is reached is sorted (the same cell is found).
  */
 export function creditLevels(z: Float64Array, masses: readonly number[]): number[] {
@@ -471,7 +471,7 @@ export function creditLevels(z: Float64Array, masses: readonly number[]): number
   for (let i = 0; i < n; i++) {
     const v = z[i];
     if (v > 0) {
-      const b = Math.min(B - 1, Math.floor(v * scale));
+      const b = Math.min(B - 1, (v * scale) | 0);
       bucket[i] = b;
       mass[b] += v;
     } else bucket[i] = -1;
@@ -564,6 +564,7 @@ function endPath(ps: PathSet, from: number, min: number): void {
  */
 export function contourPaths(grid: Density2d, level: number): Array<Array<[number, number]>> {
   const ps = newPathSet();
+  prepareContours(grid, level);
   traceContours(grid, level, ps);
   const out: Array<Array<[number, number]>> = [];
   for (let p = 0; p < ps.paths; p++) {
@@ -574,29 +575,62 @@ export function contourPaths(grid: Density2d, level: number): Array<Array<[numbe
   return out;
 }
 
-/** `contourPaths` appended to a PathSet (no per-point allocation). */
-export function traceContours(grid: Density2d, level: number, ps: PathSet): void {
+/**
+ * Prepares `traceContours` of `grid` at levels of at least `lowest`: the node values (with the
+ * border), and the box of cells holding every value >= lowest, outside which no level >=
+ * lowest has a crossing. Call once per grid, then `traceContours` for each level.
+ */
+export function prepareContours(grid: Density2d, lowest: number): void {
   const { nx, ny, z } = grid;
   const NX = nx + 2;
   const NY = ny + 2;
   const w = contourWork(NX * NY);
-  // node values with the border (and NaN) at -Infinity
   const V = w.V;
   V.fill(-Infinity, 0, NX * NY);
+  let i0 = nx, i1 = -1, j0 = ny, j1 = -1;
   for (let j = 0; j < ny; j++) {
+    const row = (j + 1) * NX + 1;
     for (let i = 0; i < nx; i++) {
       const v = z[j * nx + i];
-      if (!Number.isNaN(v)) V[(j + 1) * NX + i + 1] = v;
+      if (Number.isNaN(v)) continue;
+      V[row + i] = v;
+      if (v >= lowest) {
+        if (i < i0) i0 = i;
+        if (i > i1) i1 = i;
+        if (j < j0) j0 = j;
+        if (j > j1) j1 = j;
+      }
     }
   }
+  // cells (lower-left node I, J) with a node of the box as a corner: I from i0 to i1 + 1 (node I is cell I - 1)
+  w.box = i1 < 0 ? null : [i0, i1 + 1, j0, j1 + 1];
+  w.grid = grid;
+  w.lowest = lowest;
+}
+
+/** `contourPaths` appended to a PathSet (no per-point allocation); prepared by `prepareContours` when it was called for this grid and a level no lower. */
+export function traceContours(grid: Density2d, level: number, ps: PathSet): void {
+  let w = contourBuf;
+  if (!w || w.grid !== grid || !(level >= w.lowest)) {
+    prepareContours(grid, level);
+    w = contourBuf!;
+  }
+  if (!w.box) return;
+  const { nx } = grid;
+  const NX = nx + 2;
+  const V = w.V;
+  const [I0, I1, J0, J1] = w.box;
   // edge id: 2 x (node index of its lower-left end) + (0 horizontal, 1 vertical); each edge
-  // crossing belongs to at most two segments (the two cells sharing the edge)
+  // crossing belongs to at most two segments (the two cells sharing the edge). Only the rows of
+  // the box have edges in use.
   const { segA, segB, slot0, slot1 } = w;
-  slot0.fill(-1, 0, 2 * NX * NY);
-  slot1.fill(-1, 0, 2 * NX * NY);
+  const e0Row = 2 * J0 * NX;
+  const e1Row = 2 * (J1 + 2) * NX;
+  slot0.fill(-1, e0Row, e1Row);
+  slot1.fill(-1, e0Row, e1Row);
   let nSeg = 0;
-  for (let J = 0; J < NY - 1; J++) {
-    for (let I = 0; I < NX - 1; I++) {
+  for (let J = J0; J <= J1; J++) {
+    for (let I = I0; I <= I1; I++) {
       const n0 = J * NX + I;
       const bl = V[n0];
       const br = V[n0 + 1];
@@ -662,6 +696,10 @@ interface ContourWork {
   slot0: Int32Array;
   slot1: Int32Array;
   used: Uint8Array;
+  /** What `prepareContours` prepared: the grid, its lowest level and the box of cells to scan ([I0, I1, J0, J1] inclusive, or null: no crossings). */
+  grid: Density2d | null;
+  lowest: number;
+  box: [number, number, number, number] | null;
 }
 let contourBuf: ContourWork | null = null;
 
@@ -674,6 +712,9 @@ function contourWork(nodes: number): ContourWork {
     slot0: new Int32Array(2 * nodes),
     slot1: new Int32Array(2 * nodes),
     used: new Uint8Array(2 * nodes),
+    grid: null,
+    lowest: NaN,
+    box: null,
   };
   return contourBuf;
 }

@@ -1,14 +1,18 @@
 /**
  * The inner loops of the summaries and densities in WebAssembly SIMD (`kernels.wat`, assembled
  * into `kernels-wasm.ts` by `node scripts/wasm/build.mjs`). Each loop exists here twice: the
- * WebAssembly function, which puts two outputs in the two float64 lanes of one instruction, and
- * the scalar loop it replaces, which is the definition, runs where WebAssembly SIMD is missing,
- * and is what the tests compare the WebAssembly against. Lanes do per output exactly what the
- * scalar loop does, in the same order, so both give the same bits.
+ * WebAssembly function, and the scalar loop it replaces, which is the definition, runs where
+ * WebAssembly SIMD is missing (or is switched off, `setSimd(false)`), and is what the tests
+ * compare the WebAssembly against. The WebAssembly does per output exactly what the scalar
+ * loop does, in the same order (lanes of two only let two outputs share an instruction), so
+ * both give the same bits.
  *
- * Memory: one module instance per thread with its own memory. `scratch(bytes)` grows it and
- * returns a Float64Array over all of it; callers lay out their arrays by float64 index and must
- * not keep the view across another `scratch` call (growing detaches it).
+ * Memory: one module instance per thread, with its own memory used as a stack of float64
+ * slots: `alloc(n)` returns the index of n free slots, `release(at)` frees them and every
+ * later allocation. `memory()` is a Float64Array over all of it; growing the memory (in
+ * `alloc` or `reserve`) detaches views made before, so a caller holding views across calls
+ * first `reserve`s what those calls will allocate. `offsetOf(a)` gives the slot of an array
+ * that lies in this memory, so callers can pass their arrays without copying.
  */
 import { KERNELS_WASM_BASE64 } from './kernels-wasm.ts';
 
@@ -17,6 +21,10 @@ interface Exports {
   convSym(pMesh: number, pKer: number, pOut: number, G: number, L: number, r: number): void;
   crossProducts(pT: number, pU: number, n: number, k: number, kk: number, pOut: number): void;
   smooth2d(pIn: number, pTmp: number, pOut: number, nx: number, ny: number, pKx: number, lx: number, pKy: number, ly: number): void;
+  sortDraws(pX: number, pW: number, n: number, pOX: number, pOW: number, pWork: number, pTotal: number): number;
+  summarySorted(pX: number, pW: number, n: number, total: number, pProbs: number, K: number, need68: number, need95: number, pOut: number): void;
+  binLinear1d(pX: number, pW: number, n: number, origin: number, inv: number, M: number, pMesh: number): number;
+  covarianceTerms(pW: number, pX: number, n: number, k: number, kk: number, pT: number, pU: number): number;
 }
 
 function instantiate(): Exports | null {
@@ -31,7 +39,6 @@ function instantiate(): Exports | null {
 }
 
 let X: Exports | null | undefined;
-/** Set to false to run the scalar loops (tests compare the two). */
 let useWasm = true;
 
 function wasm(): Exports | null {
@@ -45,39 +52,86 @@ export function simdEnabled(): boolean {
   return wasm() !== null;
 }
 
-/** Switch the WebAssembly loops off or on (for tests). */
+/** Switch the WebAssembly loops off or on (for tests); the memory starts empty. */
 export function setSimd(on: boolean): void {
   useWasm = on;
+  top = 0;
+  view = null;
 }
 
 let jsMemory = new Float64Array(1 << 13);
 let view: Float64Array | null = null;
+/** Slots in use (the stack's top). */
+let top = 0;
 
-/** A Float64Array over at least `doubles` float64 slots of scratch memory (see the module comment). */
-export function scratch(doubles: number): Float64Array {
+function capacity(): number {
   const x = wasm();
-  if (!x) {
-    if (jsMemory.length < doubles) jsMemory = new Float64Array(Math.max(doubles, 2 * jsMemory.length));
-    return jsMemory;
+  return x ? x.memory.buffer.byteLength / 8 : jsMemory.length;
+}
+
+/** Make room for `slots` more float64 slots above the stack's top (may detach earlier views). */
+export function reserve(slots: number): void {
+  const need = top + slots;
+  if (need <= capacity()) return;
+  const x = wasm();
+  if (x) {
+    const bytes = need * 8;
+    x.memory.grow(Math.ceil((bytes - x.memory.buffer.byteLength) / 65536));
+  } else {
+    const bigger = new Float64Array(Math.max(need, 2 * jsMemory.length));
+    bigger.set(jsMemory);
+    jsMemory = bigger;
   }
-  const bytes = doubles * 8;
-  const have = x.memory.buffer.byteLength;
-  if (have < bytes) x.memory.grow(Math.ceil((bytes - have) / 65536));
+}
+
+/** The index of `slots` free float64 slots (see the module comment). */
+export function alloc(slots: number): number {
+  reserve(slots);
+  const at = top;
+  top += slots;
+  return at;
+}
+
+/** Frees the slots from `at` up (what `alloc` returned, and everything allocated after it). */
+export function release(at: number): void {
+  top = at;
+}
+
+/** A Float64Array over the whole memory (valid until the memory grows). */
+export function memory(): Float64Array {
+  const x = wasm();
+  if (!x) return jsMemory;
   if (!view || view.buffer !== x.memory.buffer) view = new Float64Array(x.memory.buffer);
   return view;
 }
 
+/** The slot of `a` when it lies in this memory (and is aligned), else -1. */
+export function offsetOf(a: Float64Array): number {
+  const m = memory();
+  return a.buffer === m.buffer && a.byteOffset % 8 === 0 ? a.byteOffset / 8 : -1;
+}
+
+/** The slot of `a`: where it is when it lies in this memory, else a copy in slots allocated here. */
+export function place(a: Float64Array): number {
+  const at0 = offsetOf(a);
+  if (at0 >= 0) return at0;
+  const at = alloc(a.length);
+  memory().set(a, at);
+  return at;
+}
+
 /**
- * Binned-KDE convolution on scratch memory `m` (from `scratch`), all positions float64 indices:
+ * Binned-KDE convolution, all positions slots of `memory()`:
  *   m[out + g] = m[ker] m[at] + sum_{d = 1 .. L} m[ker + d] (m[at - d] + m[at + d]),  at = mesh + L + g r,
  * for g = 0 .. G - 1, summed in that order.
  */
-export function convolveSymmetric(m: Float64Array, mesh: number, ker: number, out: number, G: number, L: number, r: number): void {
+export function convolveSymmetric(mesh: number, ker: number, out: number, G: number, L: number, r: number): void {
   const x = wasm();
   if (x) {
     x.convSym(mesh * 8, ker * 8, out * 8, G, L, r);
     return;
   }
+  const m = memory();
   const k0 = m[ker];
   for (let g = 0; g < G; g++) {
     const at = mesh + L + g * r;
@@ -88,17 +142,74 @@ export function convolveSymmetric(m: Float64Array, mesh: number, ker: number, ou
 }
 
 /**
- * Cross products on scratch memory: m[out + a kk + b] = sum_i m[t + a n + i] m[u + i kk + b] for
- * a < k and (a rounded down to even) <= b < kk, summed in order of i (kk = k rounded up to even;
- * column k of u, when k is odd, must be zero).
+ * Linear binning for the binned KDE: for each draw with w > 0 (n of them from slots x and w),
+ * position p = (x - origin) inv; when 0 <= p < M - 1, w (1 - f) goes to mesh node floor(p) and
+ * w f to the next (f = p - floor(p)). The mesh must be zero before. Returns the total weight.
  */
-export function crossProducts(m: Float64Array, t: number, u: number, n: number, k: number, out: number): void {
+export function binLinear1d(x: number, w: number, n: number, origin: number, inv: number, M: number, mesh: number): number {
+  const X = wasm();
+  if (X) return X.binLinear1d(x * 8, w * 8, n, origin, inv, M, mesh * 8);
+  const m = memory();
+  let total = 0;
+  for (let i = 0; i < n; i++) {
+    const wi = m[w + i];
+    if (!(wi > 0)) continue;
+    total += wi;
+    const pos = (m[x + i] - origin) * inv;
+    if (!(pos >= 0 && pos < M - 1)) continue;
+    const j = Math.floor(pos);
+    const f = pos - j;
+    m[mesh + j] += wi * (1 - f);
+    m[mesh + j + 1] += wi * f;
+  }
+  return total;
+}
+
+/**
+ * The inputs of a weighted covariance of k columns (slots x + a n, n each) with weights at w:
+ * per column its mean sum(w x) / sum(w) over positive weights, u[i kk + a] = x_ai - m_a (the
+ * padding column of an odd k zero) and t[a n + i] = w_i u[i kk + a]; returns sum(w) over all
+ * draws (kk = k rounded up to even).
+ */
+export function covarianceTerms(w: number, x: number, n: number, k: number, t: number, u: number): number {
+  const kk = k + (k & 1);
+  const X = wasm();
+  if (X) return X.covarianceTerms(w * 8, x * 8, n, k, kk, t * 8, u * 8);
+  const m = memory();
+  let sw = 0;
+  for (let i = 0; i < n; i++) sw += m[w + i];
+  for (let a = 0; a < k; a++) {
+    let swa = 0;
+    let swx = 0;
+    for (let i = 0; i < n; i++) {
+      const wi = m[w + i];
+      if (wi === 0) continue;
+      swa += wi;
+      swx += wi * m[x + a * n + i];
+    }
+    const mean = swx / swa;
+    for (let i = 0; i < n; i++) {
+      const d = m[x + a * n + i] - mean;
+      m[u + i * kk + a] = d;
+      m[t + a * n + i] = m[w + i] * d;
+    }
+  }
+  if (kk > k) for (let i = 0; i < n; i++) m[u + i * kk + k] = 0;
+  return sw;
+}
+
+/**
+ * Cross products: m[out + a kk + b] = sum_i m[t + a n + i] m[u + i kk + b] for a < k and
+ * (a rounded down to even) <= b < kk, summed in order of i (kk = k rounded up to even).
+ */
+export function crossProducts(t: number, u: number, n: number, k: number, out: number): void {
   const kk = k + (k & 1);
   const x = wasm();
   if (x) {
     x.crossProducts(t * 8, u * 8, n, k, kk, out * 8);
     return;
   }
+  const m = memory();
   for (let a = 0; a < k; a++)
     for (let b = a & ~1; b < kk; b++) {
       let s = 0;
@@ -108,17 +219,18 @@ export function crossProducts(m: Float64Array, t: number, u: number, n: number, 
 }
 
 /**
- * Separable smoothing on scratch memory (nx even): the grid at `inp` has ny rows of stride
- * sx = nx + 2 lx with lx zero columns each side and ly zero rows above and below; rows are
- * smoothed with taps kx[0 .. lx] into `tmp` (same layout; its padding rows must be zero), then
- * columns with ky[0 .. ly] into `out` (ny rows of nx). Each value is k[0] c + sum_d k[d] (left + right).
+ * Separable smoothing (nx even): the grid at slot `inp` has ny rows of stride sx = nx + 2 lx
+ * with lx zero columns each side and ly zero rows above and below; rows are smoothed with taps
+ * kx[0 .. lx] into `tmp` (same layout; its padding rows must be zero), then columns with
+ * ky[0 .. ly] into `out` (ny rows of nx). Each value is k[0] c + sum_d k[d] (left + right).
  */
-export function smooth2d(m: Float64Array, inp: number, tmp: number, out: number, nx: number, ny: number, kx: number, lx: number, ky: number, ly: number): void {
+export function smooth2d(inp: number, tmp: number, out: number, nx: number, ny: number, kx: number, lx: number, ky: number, ly: number): void {
   const x = wasm();
   if (x) {
     x.smooth2d(inp * 8, tmp * 8, out * 8, nx, ny, kx * 8, lx, ky * 8, ly);
     return;
   }
+  const m = memory();
   const sx = nx + 2 * lx;
   for (let j = 0; j < ny; j++)
     for (let i = 0; i < nx; i++) {
@@ -134,4 +246,38 @@ export function smooth2d(m: Float64Array, inp: number, tmp: number, out: number,
       for (let d = 1; d <= ly; d++) s += m[ky + d] * (m[c - d * sx] + m[c + d * sx]);
       m[out + j * nx + i] = s;
     }
+}
+
+/**
+ * The draws with a positive weight and a non-NaN value (n of them from slots x and w), sorted
+ * by value (ties in their original order, -0 before +0: the order of the order-preserving
+ * 64-bit pattern) into slots outX and outW, with their total weight summed in the original
+ * order. Returns their number and total, or null when the WebAssembly loop is not available
+ * or gives up (many distinct values tied at float32 resolution), for the caller to sort
+ * another way (`sortDraws` in summary.ts). See `sortDraws` in kernels.wat.
+ */
+export function sortDrawsAt(x: number, w: number, n: number, outX: number, outW: number): { n: number; total: number } | null {
+  const X = wasm();
+  if (!X) return null;
+  // work: 20 n + 4 (n + 1) bytes, then the total
+  const slots = Math.ceil((24 * n + 4) / 8);
+  const work = alloc(slots + 1);
+  const kept = X.sortDraws(x * 8, w * 8, n, outX * 8, outW * 8, work * 8, (work + slots) * 8);
+  const total = memory()[work + slots];
+  release(work);
+  return kept < 0 ? null : { n: kept, total };
+}
+
+/**
+ * Summary of sorted draws (slots x, w; n >= 1, weights summing to `total`), written from slot
+ * `out`: mean and standard deviation (sums in sorted order), the quantiles at `probs`
+ * (ascending; midpoint rule), the shortest intervals holding weight need68 and need95 (lo, hi
+ * each) and the Kish ESS of the weights; the operations of `meanStdSorted`,
+ * `quantilesSorted`, `hdiSorted` and `kishEss`, in their order. Null without WebAssembly.
+ */
+export function summarySortedAt(x: number, w: number, n: number, total: number, probs: number, K: number, need68: number, need95: number, out: number): boolean {
+  const X = wasm();
+  if (!X) return false;
+  X.summarySorted(x * 8, w * 8, n, total, probs * 8, K, need68, need95, out * 8);
+  return true;
 }

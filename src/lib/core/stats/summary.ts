@@ -3,6 +3,7 @@
  * covariance and correlation. Weights need not be normalised; zero weights carry no mass.
  */
 import { PosterityError, problem } from '../problems.ts';
+import { alloc, memory, place, release, sortDrawsAt } from './simd.ts';
 
 export { autocorrEss } from './autocorr.ts';
 
@@ -257,6 +258,24 @@ export function sortDraws(x: Float64Array, w: Float64Array, out?: SortedDraws): 
   const n0 = x.length;
   const dst: SortedDraws =
     out && out.x.length >= n0 ? out : { x: new Float64Array(n0), w: new Float64Array(n0), n: 0, total: 0 };
+  if (n0 >= 64) {
+    // the same order as radixSortPairs below, in WebAssembly (kernels.wat)
+    const base = alloc(0);
+    const px = place(x);
+    const pw = place(w);
+    const out = alloc(2 * n0);
+    const s = sortDrawsAt(px, pw, n0, out, out + n0);
+    if (s && s.n >= 64) {
+      const m = memory();
+      dst.x.set(m.subarray(out, out + s.n));
+      dst.w.set(m.subarray(out + n0, out + n0 + s.n));
+      dst.n = s.n;
+      dst.total = s.total;
+      release(base);
+      return dst;
+    }
+    release(base);
+  }
   let n = 0;
   let total = 0;
   for (let i = 0; i < n0; i++) {
