@@ -97,7 +97,7 @@ export class JsonWriter {
    * A number that is an integer multiple of 10^e, i.e. `Math.round(x / 10^e) * 10^e` for
    * e >= 0 or `Math.round(x * 10^-e) / 10^-e` for e < 0, written from its integer mantissa; the
    * text is the one `JSON.stringify` gives (its shortest round-trip digits are the mantissa's
-   * while the mantissa is below 2^52). Other values go through `number`. `p` must be 10^-e
+   * while the mantissa is below 2^50). Other values go through `number`. `p` must be 10^-e
    * when e < 0 (given, so that it is not computed per value).
    */
   decimal(v: number, e: number, p = e < 0 ? 10 ** -e : 1): void {
@@ -118,7 +118,9 @@ export class JsonWriter {
     }
     if (e < -15 || a < 1e-6) return this.number(v);
     const m = Math.round(a * p);
-    if (m >= 2 ** 52) return this.number(v);
+    // below 2^50 the spacing 10^e of such decimals exceeds twice the double spacing at v, so the
+    // shortest round-trip digits are the mantissa's; above, leave it to String
+    if (m >= 2 ** 50) return this.number(v);
     // digits of m, least significant first
     const d = this.digits;
     let n = 0;

@@ -30,7 +30,8 @@
  * depend on the scale). 32 cells (2 to 5 pixels each) resolve a density smoothed over at least
  * a cell, and give about one path per level and panel.
  */
-import { cellCoords, binLinear, clearPaths, creditLevels, gaussianHalfTaps, histogram, kde, kdeBandwidth, kdeScratchSlots, newPathSet, prepareContours, sampleMoments, simplifyPoints, smoothedGrid, traceContours, type Density2d, type SampleMoments } from '../core/stats/density.ts';
+import { cellCoords, binLinear, clearPaths, gaussianHalfTaps, histogram, kde, kdeBandwidth, kdeScratchSlots, newPathSet, sampleMoments, simplifyPoints, smoothedContours, traceContours, type Density2d, type SampleMoments } from '../core/stats/density.ts';
+import { alloc, int32At, memory, release, reserve } from '../core/stats/simd.ts';
 import { makeRng } from '../core/random.ts';
 import type { Contour2d, Marginal } from './content.ts';
 import { JsonWriter } from './json-writer.ts';
@@ -50,7 +51,7 @@ const COORD_FRACTION = 1 / 500;
 const CONTOUR_TOLERANCE = 1 / 300;
 export const CORNER_GRID = 32;
 /** Scratch slots (`simd.ts`) `cornerData` may allocate: a binned KDE curve and a smoothed panel (taps of at most 6 cells, L = 24). */
-export const CORNER_SCRATCH_SLOTS = kdeScratchSlots(64) + 3 * (CORNER_GRID + 48) * (CORNER_GRID + 48 + 1) + 64;
+export const CORNER_SCRATCH_SLOTS = (n: number, k: number) => k * (n + Math.ceil(n / 2) + 1) + Math.max(2 * n + kdeScratchSlots(64), 6 * (CORNER_GRID + 48) * (CORNER_GRID + 48) + 512);
 /** Bounds of the 2-D smoothing in cells (our choice): at least one cell, at most 6 (cost grows with it). */
 const MAX_SMOOTH_CELLS = 6;
 const KDE_POINTS = 64;
@@ -119,8 +120,6 @@ export interface CornerData {
 }
 
 // Reused across objects (one thread each).
-const cellWork = { cell: [] as Int32Array[], frac: [] as Float64Array[] };
-let grid: Float64Array = new Float64Array(CORNER_GRID * CORNER_GRID);
 const traced = newPathSet();
 let keep = new Uint8Array(256);
 const out = { xy: new Float64Array(4096), points: 0, pathPoints: new Int32Array(256), paths: 0 };
@@ -152,6 +151,17 @@ function pushPath(points: number): void {
 export function cornerData(names: string[], xs: Float64Array[], w: Float64Array, seed: number, moments?: SampleMoments[]): CornerData {
   const k = xs.length;
   const n = w.length;
+  // each draw's cell coordinates on every parameter's grid, in simd.ts memory (the 2-D binning
+  // reads them there), with room for everything below first, so the views made now stay valid
+  reserve(CORNER_SCRATCH_SLOTS(n, k));
+  const mark = alloc(k * (n + Math.ceil(n / 2) + 1));
+  const cells: Int32Array[] = [];
+  const fracs: Float64Array[] = [];
+  for (let j = 0; j < k; j++) {
+    const at = mark + j * (n + Math.ceil(n / 2) + 1);
+    fracs.push(memory().subarray(at, at + n));
+    cells.push(int32At(at + n, n));
+  }
   const marginals: MarginalData[] = [];
   const lo = new Float64Array(k);
   const hi = new Float64Array(k);
@@ -182,11 +192,7 @@ export function cornerData(names: string[], xs: Float64Array[], w: Float64Array,
       ex,
       ey,
     });
-    if (!cellWork.cell[j] || cellWork.cell[j].length < n) {
-      cellWork.cell[j] = new Int32Array(Math.max(n, 2 * (cellWork.cell[j]?.length ?? 0)));
-      cellWork.frac[j] = new Float64Array(cellWork.cell[j].length);
-    }
-    cellCoords(xs[j], a, b, CORNER_GRID, cellWork.cell[j], cellWork.frac[j]);
+    cellCoords(xs[j], a, b, CORNER_GRID, cells[j], fracs[j]);
   }
 
   // a light scatter of equal-weight points under the contours (the same draws in every panel)
@@ -210,27 +216,25 @@ export function cornerData(names: string[], xs: Float64Array[], w: Float64Array,
   const points = xs.map((x, j) => Float64Array.from(picks, (i) => roundTo(x[i], rounders[j])));
 
   const N = CORNER_GRID;
-  if (grid.length < N * N) grid = new Float64Array(N * N);
-  const panel: Density2d = { nx: N, ny: N, x0: 0, dx: 0, y0: 0, dy: 0, z: grid };
+  const panel: Density2d = { nx: N, ny: N, x0: 0, dx: 0, y0: 0, dy: 0, z: new Float64Array(0) };
   const levelPaths = new Int32Array(((k * (k - 1)) / 2) * MASS_LEVELS.length);
   out.points = 0;
   out.paths = 0;
   let slot = 0;
   for (let a = 0; a < k; a++) {
-    const ca = cellWork.cell[a], fa = cellWork.frac[a];
+    const ca = cells[a], fa = fracs[a];
     const ex = rounders[a];
     const sa = hi[a] - lo[a];
     for (let b = a + 1; b < k; b++) {
-      const cb = cellWork.cell[b], fb = cellWork.frac[b];
+      const cb = cells[b], fb = fracs[b];
       const ey = rounders[b];
       const sb = hi[b] - lo[b];
-      smoothedGrid(N, N, taps[a], taps[b], (m, origin, stride) => binLinear(ca, fa, cb, fb, w, n, m, origin, stride), grid);
       panel.x0 = lo[a];
       panel.dx = sa / N;
       panel.y0 = lo[b];
       panel.dy = sb / N;
-      const levels = creditLevels(grid, MASS_LEVELS);
-      prepareContours(panel, Math.min(...levels));
+      const panelMark = alloc(0);
+      const levels = smoothedContours(panel, taps[a], taps[b], (m, origin, stride) => binLinear(ca, fa, cb, fb, w, n, m, origin, stride), MASS_LEVELS);
       for (let li = 0; li < MASS_LEVELS.length; li++) {
         clearPaths(traced);
         traceContours(panel, levels[li], traced);
@@ -259,8 +263,10 @@ export function cornerData(names: string[], xs: Float64Array[], w: Float64Array,
         }
         levelPaths[slot++] = kept;
       }
+      release(panelMark);
     }
   }
+  release(mark);
   return { names, marginals, points, xy: out.xy.slice(0, 2 * out.points), pathPoints: out.pathPoints.slice(0, out.paths), levelPaths };
 }
 

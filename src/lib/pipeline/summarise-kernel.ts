@@ -6,18 +6,20 @@
  * text. Nothing here depends on which other objects are in the batch or on the order of
  * batches: every random step is seeded by the release seed and the object id.
  *
- * Per object, in as few passes over the draws as the definitions allow: the weights are
- * normalised once; the means, the covariance matrix and from its diagonal the standard
+ * Per object, in as few passes over the draws as the definitions allow, with the draws held in
+ * the SIMD memory (simd.ts) so that every WebAssembly loop works on them in place: the weights
+ * are normalised once; the means, the covariance matrix and from its diagonal the standard
  * deviations (in the draws' own order) come from one set of weighted cross products
- * (`crossProducts`, SIMD); each parameter is sorted once (`sortDraws`), and that one sort gives
- * the published mean and standard deviation (sums in sorted order, as published before), all
- * percentiles and the quartiles in one walk (`quantilesSorted`), both HDIs and the Kish ESS the
- * histogram and KDE rules use; the mode test's KDE is a SIMD convolution (`kdeUniform`).
+ * (`weightedCovariance`); each parameter is sorted once (`sortDrawsAt`), and one call on that
+ * sort gives the published mean and standard deviation (sums in sorted order, as published
+ * before), all percentiles and the quartiles in one walk, both HDIs and the Kish ESS the
+ * histogram and KDE rules use (`summarySortedAt`); the mode test's KDE is binned and convolved
+ * in WebAssembly (`kdeUniform`). The results are the bits of the scalar definitions.
  */
 import { normaliseWeightsInto, kishEss } from '../core/stats/weights.ts';
-import { correlationFromCovariance, autocorrEss, sortDraws, quantilesSorted, hdiSorted, meanStdSorted, SUMMARY_PROBS, type SortedDraws } from '../core/stats/summary.ts';
+import { correlationFromCovariance, autocorrEss, weightedCovariance, sortDraws, quantilesSorted, hdiSorted, meanStdSorted, SUMMARY_PROBS, type SortedDraws } from '../core/stats/summary.ts';
 import { kdeScratchSlots, type SampleMoments } from '../core/stats/density.ts';
-import { alloc, covarianceTerms, crossProducts, memory, release, reserve, sortDrawsAt, summarySortedAt } from '../core/stats/simd.ts';
+import { alloc, memory, release, reserve, sortDrawsAt, summarySortedAt } from '../core/stats/simd.ts';
 import { CORNER_SCRATCH_SLOTS } from './summarise-charts.ts';
 import { isMultimodal, priorEdgeMass } from '../core/stats/diagnostics.ts';
 import { FLAGS } from '../core/flags.ts';
@@ -328,7 +330,7 @@ export function summariseBatch(ctx: KernelContext, batch: ObjectBatch): BatchRes
     // k parameters), with room reserved first for everything the steps below allocate, so the
     // views made now stay valid.
     // (the steps allocate one after another, each freeing its slots: the largest one counts)
-    reserve((k + 1) * n + Math.max(k * n + n * kk + k * kk, 6 * n + SUMMARY_SLOTS + 3, kdeScratchSlots(256), ctx.charts ? CORNER_SCRATCH_SLOTS : 0));
+    reserve((k + 1) * n + Math.max(k * n + n * kk + k * kk, 6 * n + SUMMARY_SLOTS + 3, kdeScratchSlots(256), ctx.charts ? CORNER_SCRATCH_SLOTS(n, k) : 0));
     const D = alloc((k + 1) * n);
     const mem = memory();
     const w = mem.subarray(D, D + n);
@@ -352,7 +354,7 @@ export function summariseBatch(ctx: KernelContext, batch: ObjectBatch): BatchRes
     if (out.ess[o] < q.minEss) flags |= FLAGS.LOW_ESS;
 
     // covariance (and from its diagonal the standard deviations the density rules use)
-    const cov = covariance(D, D + n, n, k, kk);
+    const cov = weightedCovariance(xs, w);
     out.cov.set(cov, o * k * k);
 
     const moments: SampleMoments[] = [];
@@ -398,26 +400,4 @@ export function summariseBatch(ctx: KernelContext, batch: ObjectBatch): BatchRes
   release(base);
   if (out.chartEnds) out.chartJson = chartWriter.take();
   return out;
-}
-
-/**
- * Weighted covariance matrix of the k columns at slot x (n each, weights at slot w),
- * normalised by the sum of weights, with exactly the arithmetic of `weightedCovariance`
- * (summary.ts): means sum(w x) / sum(w) over positive weights in the draws' order, then
- * C_ab = sum_i (w_i (x_ai - m_a)) (x_bi - m_b) / sum(w), the sums in the draws' order
- * (`crossProducts` takes two b at a time, each in that order). Its diagonal's square root is
- * therefore `weightedStd` of each column, bit for bit.
- */
-function covariance(w: number, x: number, n: number, k: number, kk: number): Float64Array {
-  const T = alloc(k * n + n * kk + k * kk);
-  const U = T + k * n;
-  const P = U + n * kk;
-  const sw = covarianceTerms(w, x, n, k, T, U);
-  crossProducts(T, U, n, k, P);
-  const mem = memory();
-  const cov = new Float64Array(k * k);
-  for (let a = 0; a < k; a++)
-    for (let b = a; b < k; b++) cov[a * k + b] = cov[b * k + a] = mem[P + a * kk + b] / sw;
-  release(T);
-  return cov;
 }

@@ -119,7 +119,7 @@ export interface StreamOptions {
 }
 
 /** Rows read from Arrow IPC at a time (our choice: about 8 MB of the bench's columns, a few hundred objects). */
-const IPC_BLOCK_ROWS = 131072;
+export const IPC_BLOCK_ROWS = 131072;
 
 /** One decoded reader batch, typed. */
 interface Typed extends ColumnSet {

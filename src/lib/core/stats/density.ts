@@ -7,7 +7,7 @@
  */
 import { kishEss } from './weights.ts';
 import { quantileSorted, sortDraws, weightedStd, type SortedDraws } from './summary.ts';
-import { alloc, binLinear1d, convolveSymmetric, memory, place, release, smooth2d } from './simd.ts';
+import { alloc, binLinear1d, binLinear2d, cellCodes, convolveSymmetric, int32At, levelBuckets, levelCells, memory, offsetOf, place, release, smooth2d } from './simd.ts';
 
 export type HistogramRule = 'fd' | 'scott' | 'fixed';
 
@@ -353,26 +353,12 @@ export function cellCoords(x: Float64Array, lo: number, hi: number, n: number, c
 }
 
 /**
- * Adds each positive-weight draw bilinearly to the four cell centres around it, into m at
- * origin + j stride + i (the cell coordinates of `cellCoords`); draws outside either range
- * are left out.
+ * Adds each positive-weight draw bilinearly to the four cell centres around it, into
+ * `memory()` (simd.ts; `m` is that memory) at origin + j stride + i (the cell coordinates of
+ * `cellCoords`); draws outside either range are left out.
  */
-export function binLinear(cx: Int32Array, fx: Float64Array, cy: Int32Array, fy: Float64Array, w: Float64Array, n: number, m: Float64Array, origin: number, stride: number): void {
-  for (let k = 0; k < n; k++) {
-    const wk = w[k];
-    const i = cx[k];
-    const j = cy[k];
-    if (!(wk > 0) || i < 0 || j < 0) continue;
-    const c = origin + j * stride + i;
-    const gx = fx[k];
-    const gy = fy[k];
-    const a = wk * (1 - gy);
-    const b = wk * gy;
-    m[c] += a * (1 - gx);
-    m[c + 1] += a * gx;
-    m[c + stride] += b * (1 - gx);
-    m[c + stride + 1] += b * gx;
-  }
+export function binLinear(cx: Int32Array, fx: Float64Array, cy: Int32Array, fy: Float64Array, w: Float64Array, n: number, _m: Float64Array, origin: number, stride: number): void {
+  binLinear2d(cx, fx, cy, fy, w, n, origin, stride);
 }
 
 const ONE_TAP = Float64Array.of(1);
@@ -412,8 +398,8 @@ export function smoothedGrid(
   const nxe = nx + (nx & 1); // the SIMD loop takes columns in pairs; an odd grid gets a spare zero column
   const stride = nxe + 2 * lx;
   const size = stride * (ny + 2 * ly);
-  // bins, row-smoothed bins, smoothed grid, taps
-  const bins = alloc(2 * size + nxe * ny + lx + ly + 2);
+  // bins, row-smoothed bins, smoothed grid, taps, sum and maximum
+  const bins = alloc(2 * size + nxe * ny + lx + ly + 4);
   const rows = bins + size;
   const res = rows + size;
   const taps = res + nxe * ny;
@@ -428,10 +414,100 @@ export function smoothedGrid(
   }
   m.set(kx, taps);
   m.set(ky, taps + lx + 1);
-  smooth2d(bins, rows, res, nxe, ny, taps, lx, taps + lx + 1, ly);
+  smooth2d(bins, rows, res, nxe, ny, taps, lx, taps + lx + 1, ly, nxe, taps + lx + ly + 2);
   if (nxe === nx) out.set(m.subarray(res, res + nx * ny));
   else for (let j = 0; j < ny; j++) out.set(m.subarray(res + j * nxe, res + j * nxe + nx), j * nx);
   release(bins);
+}
+
+/**
+ * One panel of a corner plot, without copies: the bins of `fill` (as in `smoothedGrid`)
+ * smoothed straight into the node grid of the contour tracer (`traceContours`; the border at
+ * -Infinity), the density levels whose superlevel sets hold each of the two `masses` (the
+ * definition of `creditLevels`, from its buckets, with the total summed in two halves) and the
+ * box of cells the tracer scans. Then call `traceContours(grid, level, ps)` for each level.
+ * grid.nx must be even; grid.z is not used. The grid lives in `simd.ts` memory allocated here:
+ * the caller frees it (`release`) after tracing.
+ */
+export function smoothedContours(
+  grid: Density2d,
+  kx: Float64Array,
+  ky: Float64Array,
+  fill: (m: Float64Array, origin: number, stride: number) => void,
+  masses: readonly [number, number],
+): [number, number] {
+  const { nx, ny } = grid;
+  const lx = kx.length - 1;
+  const ly = ky.length - 1;
+  const stride = nx + 2 * lx;
+  const size = stride * (ny + 2 * ly);
+  const NX = nx + 2;
+  const nodes = NX * (ny + 2);
+  const B = LEVEL_BUCKETS;
+  // bins, row-smoothed bins, node grid, taps, sum and maximum, bucket masses, cells of two buckets, bucket of each cell (int32)
+  const bins = alloc(2 * size + nodes + lx + ly + 4 + B + 2 * nx * ny + Math.ceil((nx * ny) / 2) + 4);
+  const rows = bins + size;
+  const V = rows + size;
+  const taps = V + nodes;
+  const stats = taps + lx + ly + 2;
+  const mass = stats + 2;
+  const vals1 = mass + B;
+  const vals2 = vals1 + nx * ny;
+  const bucketAt = vals2 + nx * ny;
+  const m = memory();
+  m.fill(0, bins, V);
+  m.fill(-Infinity, V, taps);
+  fill(m, bins + ly * stride + lx, stride);
+  m.set(kx, taps);
+  m.set(ky, taps + lx + 1);
+  const z0 = V + NX + 1;
+  smooth2d(bins, rows, z0, nx, ny, taps, lx, taps + lx + 1, ly, NX, stats);
+  const w = contourWork(nodes);
+  w.V = m.subarray(V, V + nodes);
+  w.grid = grid;
+  const total = m[stats];
+  const max = m[stats + 1];
+  if (!(max > 0) || !Number.isFinite(total)) {
+    w.box = [0, nx, 0, ny];
+    w.lowest = 0;
+    return [0, 0];
+  }
+  m.fill(0, mass, mass + B);
+  const bucket = int32At(bucketAt, nx * ny);
+  levelBuckets(z0, NX, nx, ny, B / max, B, mass, bucket);
+  // the bucket where each mass is reached, walking down from the densest, and the mass above it
+  const target = [masses[0] * total, masses[1] * total];
+  const where = [0, 0];
+  const above = [0, 0];
+  for (let q = 0; q < 2; q++) {
+    let acc = 0;
+    let b = B - 1;
+    while (b > 0 && acc + m[mass + b] < target[q]) acc += m[mass + b--];
+    where[q] = b;
+    above[q] = acc;
+  }
+  const io = int32At(bucketAt + Math.ceil((nx * ny) / 2), 8);
+  const counts = levelCells(z0, NX, nx, ny, bucket, where[0], where[1], Math.min(where[0], where[1]), vals1, vals2, io);
+  const levels: [number, number] = [0, 0];
+  for (let q = 0; q < 2; q++) {
+    // the mass is reached inside bucket where[q]: walk its cells, densest first
+    const c = q ? counts.n2 : counts.n1;
+    const vals = m.subarray(q ? vals2 : vals1, (q ? vals2 : vals1) + c).sort();
+    let level = c ? vals[0] : 0; // rounding left the target unreached: the least positive density
+    let acc = above[q];
+    for (let t = c - 1; t >= 0; t--) {
+      acc += vals[t];
+      if (acc >= target[q]) {
+        level = vals[t];
+        break;
+      }
+    }
+    levels[q] = level;
+  }
+  w.lowest = Math.min(levels[0], levels[1]);
+  // cells (lower-left node I, J) with a node of the box as a corner: I from i0 to i1 + 1 (node I is cell I - 1)
+  w.box = !(w.lowest > 0) ? [0, nx, 0, ny] : io[3] < 0 ? null : [io[2], io[3] + 1, io[4], io[5] + 1];
+  return levels;
 }
 
 const LEVEL_BUCKETS = 256;
@@ -585,7 +661,7 @@ export function prepareContours(grid: Density2d, lowest: number): void {
   const NX = nx + 2;
   const NY = ny + 2;
   const w = contourWork(NX * NY);
-  const V = w.V;
+  const V = (w.V = w.own);
   V.fill(-Infinity, 0, NX * NY);
   let i0 = nx, i1 = -1, j0 = ny, j1 = -1;
   for (let j = 0; j < ny; j++) {
@@ -623,64 +699,78 @@ export function traceContours(grid: Density2d, level: number, ps: PathSet): void
   // edge id: 2 x (node index of its lower-left end) + (0 horizontal, 1 vertical); each edge
   // crossing belongs to at most two segments (the two cells sharing the edge). Only the rows of
   // the box have edges in use.
-  const { segA, segB, slot0, slot1 } = w;
-  const e0Row = 2 * J0 * NX;
-  const e1Row = 2 * (J1 + 2) * NX;
-  slot0.fill(-1, e0Row, e1Row);
-  slot1.fill(-1, e0Row, e1Row);
+  const { segA, segB, slot0, slot1, stamp } = w;
+  // an edge's slots are in use only when its stamp is this call's (no clearing between calls)
+  if (w.gen >= 0x3fffffff) {
+    w.stamp.fill(0);
+    w.gen = 0;
+  }
+  const gen = ++w.gen;
+  // the cells the level crosses (their codes in SIMD memory when the grid lies there)
+  const cellsMax = (I1 - I0 + 1) * (J1 - J0 + 1);
+  let cellAt = -1;
+  let codes: Int32Array;
+  if (offsetOf(V) >= 0) {
+    cellAt = alloc(cellsMax);
+    codes = int32At(cellAt, 2 * cellsMax);
+  } else {
+    if (w.codes.length < 2 * cellsMax) w.codes = new Int32Array(2 * cellsMax);
+    codes = w.codes;
+  }
+  const nCells = cellCodes(V, NX, I0, I1, J0, J1, level, codes);
   let nSeg = 0;
-  for (let J = J0; J <= J1; J++) {
-    for (let I = I0; I <= I1; I++) {
-      const n0 = J * NX + I;
-      const bl = V[n0];
-      const br = V[n0 + 1];
-      const tr = V[n0 + NX + 1];
-      const tl = V[n0 + NX];
-      const code = (bl >= level ? 1 : 0) | (br >= level ? 2 : 0) | (tr >= level ? 4 : 0) | (tl >= level ? 8 : 0);
-      if (code === 0 || code === 15) continue;
-      const e0 = 2 * n0; // bottom
-      const e1 = 2 * (n0 + 1) + 1; // right
-      const e2 = 2 * (n0 + NX); // top
-      const e3 = 2 * n0 + 1; // left
-      let p0: number, p1: number, p2 = -1, p3 = -1;
-      if (code === 5 || code === 10) {
-        const centreInside = (bl + br + tr + tl) / 4 >= level;
-        if ((code === 5) === centreInside) {
-          p0 = e0;
-          p1 = e1;
-          p2 = e2;
-          p3 = e3;
-        } else {
-          p0 = e3;
-          p1 = e0;
-          p2 = e1;
-          p3 = e2;
-        }
+  for (let c = 0; c < nCells; c++) {
+    const n0 = codes[2 * c];
+    const code = codes[2 * c + 1];
+    const e0 = 2 * n0; // bottom
+    const e1 = 2 * (n0 + 1) + 1; // right
+    const e2 = 2 * (n0 + NX); // top
+    const e3 = 2 * n0 + 1; // left
+    let p0: number, p1: number, p2 = -1, p3 = -1;
+    if (code === 5 || code === 10) {
+      const centreInside = (V[n0] + V[n0 + 1] + V[n0 + NX + 1] + V[n0 + NX]) / 4 >= level;
+      if ((code === 5) === centreInside) {
+        p0 = e0;
+        p1 = e1;
+        p2 = e2;
+        p3 = e3;
       } else {
-        const pair = SEGMENTS[code];
-        const q0 = pair[0];
-        const q1 = pair[1];
-        p0 = q0 === 0 ? e0 : q0 === 1 ? e1 : q0 === 2 ? e2 : e3;
-        p1 = q1 === 0 ? e0 : q1 === 1 ? e1 : q1 === 2 ? e2 : e3;
+        p0 = e3;
+        p1 = e0;
+        p2 = e1;
+        p3 = e2;
       }
-      for (let q = 0; q < 2; q++) {
-        const ea = q ? p2 : p0;
-        const eb = q ? p3 : p1;
-        if (ea < 0) break;
-        segA[nSeg] = ea;
-        segB[nSeg] = eb;
-        if (slot0[ea] < 0) slot0[ea] = nSeg;
-        else slot1[ea] = nSeg;
-        if (slot0[eb] < 0) slot0[eb] = nSeg;
-        else slot1[eb] = nSeg;
-        nSeg++;
-      }
+    } else {
+      const pair = SEGMENTS[code];
+      const q0 = pair[0];
+      const q1 = pair[1];
+      p0 = q0 === 0 ? e0 : q0 === 1 ? e1 : q0 === 2 ? e2 : e3;
+      p1 = q1 === 0 ? e0 : q1 === 1 ? e1 : q1 === 2 ? e2 : e3;
+    }
+    for (let q = 0; q < 2; q++) {
+      const ea = q ? p2 : p0;
+      const eb = q ? p3 : p1;
+      if (ea < 0) break;
+      segA[nSeg] = ea;
+      segB[nSeg] = eb;
+      if (stamp[ea] !== gen) {
+        stamp[ea] = gen;
+        slot0[ea] = nSeg;
+        slot1[ea] = -1;
+      } else slot1[ea] = nSeg;
+      if (stamp[eb] !== gen) {
+        stamp[eb] = gen;
+        slot0[eb] = nSeg;
+        slot1[eb] = -1;
+      } else slot1[eb] = nSeg;
+      nSeg++;
     }
   }
+  if (cellAt >= 0) release(cellAt);
   if (w.used.length < nSeg) w.used = new Uint8Array(Math.max(nSeg, 2 * w.used.length));
   const used = w.used;
   used.fill(0, 0, nSeg);
-  const ends = (e: number) => (slot0[e] >= 0 ? 1 : 0) + (slot1[e] >= 0 ? 1 : 0);
+  const ends = (e: number) => (slot1[e] >= 0 ? 2 : 1); // edges of segments only, so stamped
   // open paths first (from an end crossing that only one segment uses), then closed loops
   for (let s = 0; s < nSeg; s++) {
     if (!used[s] && ends(segA[s]) === 1) walkContour(grid, level, V, w, s, segA[s], ps);
@@ -690,12 +780,30 @@ export function traceContours(grid: Density2d, level: number, ps: PathSet): void
 }
 
 interface ContourWork {
+  /** The node values being traced: `own`, or a grid in simd.ts memory (`smoothedContours`). */
   V: Float64Array;
+  own: Float64Array;
   segA: Int32Array;
   segB: Int32Array;
   slot0: Int32Array;
   slot1: Int32Array;
+  /** Generation of the call that set each edge's slots (see `traceContours`). */
+  stamp: Int32Array;
+  gen: number;
+  /** Node coordinates of the grid `axes` (with its origin and spacing), each node's column and row (`nodeAxes`). */
+  axes: Density2d | null;
+  axesX0: number;
+  axesDx: number;
+  axesY0: number;
+  axesDy: number;
+  colX: Float64Array;
+  rowY: Float64Array;
+  nodeCol: Int32Array;
+  nodeRow: Int32Array;
+  nodesOf: number;
   used: Uint8Array;
+  /** Codes of the crossed cells (when the node grid is a JavaScript array). */
+  codes: Int32Array;
   /** What `prepareContours` prepared: the grid, its lowest level and the box of cells to scan ([I0, I1, J0, J1] inclusive, or null: no crossings). */
   grid: Density2d | null;
   lowest: number;
@@ -704,14 +812,29 @@ interface ContourWork {
 let contourBuf: ContourWork | null = null;
 
 function contourWork(nodes: number): ContourWork {
-  if (contourBuf && contourBuf.V.length >= nodes) return contourBuf;
+  if (contourBuf && contourBuf.own.length >= nodes) return contourBuf;
+  const own = new Float64Array(nodes);
   contourBuf = {
-    V: new Float64Array(nodes),
+    V: own,
+    own,
     segA: new Int32Array(2 * nodes),
     segB: new Int32Array(2 * nodes),
     slot0: new Int32Array(2 * nodes),
     slot1: new Int32Array(2 * nodes),
+    stamp: new Int32Array(2 * nodes),
+    gen: 0,
+    axes: null,
+    axesX0: NaN,
+    axesDx: NaN,
+    axesY0: NaN,
+    axesDy: NaN,
+    colX: new Float64Array(0),
+    rowY: new Float64Array(0),
+    nodeCol: new Int32Array(0),
+    nodeRow: new Int32Array(0),
+    nodesOf: 0,
     used: new Uint8Array(2 * nodes),
+    codes: new Int32Array(2 * nodes),
     grid: null,
     lowest: NaN,
     box: null,
@@ -739,11 +862,12 @@ function walkContour(grid: Density2d, level: number, V: Float64Array, w: Contour
 
 /** Appends the crossing of edge `id` (linear interpolation between its two nodes), unless it repeats the last point of the path begun at `from`. */
 function pushCrossing(grid: Density2d, level: number, V: Float64Array, id: number, ps: PathSet, from: number): void {
-  const { nx, ny, x0, dx, y0, dy } = grid;
-  const NX = nx + 2;
+  const w = contourBuf!;
+  if (w.axes !== grid || w.axesX0 !== grid.x0 || w.axesDx !== grid.dx || w.axesY0 !== grid.y0 || w.axesDy !== grid.dy) nodeAxes(w, grid);
+  const NX = grid.nx + 2;
   const node = id >> 1;
-  const I = node % NX;
-  const J = (node - I) / NX;
+  const I = w.nodeCol[node];
+  const J = w.nodeRow[node];
   const I2 = id & 1 ? I : I + 1;
   const J2 = id & 1 ? J + 1 : J;
   const a = V[node];
@@ -751,15 +875,43 @@ function pushCrossing(grid: Density2d, level: number, V: Float64Array, id: numbe
   let t = (level - a) / (b - a);
   if (!Number.isFinite(t)) t = 0.5; // a border node shares its neighbour's position
   // cell centres, border nodes clamped to the outermost centres
-  const xa = x0 + (Math.min(nx - 1, Math.max(0, I - 1)) + 0.5) * dx;
-  const xb = x0 + (Math.min(nx - 1, Math.max(0, I2 - 1)) + 0.5) * dx;
-  const ya = y0 + (Math.min(ny - 1, Math.max(0, J - 1)) + 0.5) * dy;
-  const yb = y0 + (Math.min(ny - 1, Math.max(0, J2 - 1)) + 0.5) * dy;
+  const xa = w.colX[I];
+  const xb = w.colX[I2];
+  const ya = w.rowY[J];
+  const yb = w.rowY[J2];
   const px = xa + t * (xb - xa);
   const py = ya + t * (yb - ya);
   const q = ps.points;
   if (q > from && ps.xy[2 * q - 2] === px && ps.xy[2 * q - 1] === py) return;
   pathPoint(ps, px, py);
+}
+
+/** Coordinates of the node columns and rows of `grid` (cell centres, border nodes clamped to the outermost) and each node's column and row. */
+function nodeAxes(w: ContourWork, grid: Density2d): void {
+  const { nx, ny, x0, dx, y0, dy } = grid;
+  const NX = nx + 2;
+  const NY = ny + 2;
+  if (w.colX.length < NX) w.colX = new Float64Array(NX);
+  if (w.rowY.length < NY) w.rowY = new Float64Array(NY);
+  for (let I = 0; I < NX; I++) w.colX[I] = x0 + (Math.min(nx - 1, Math.max(0, I - 1)) + 0.5) * dx;
+  for (let J = 0; J < NY; J++) w.rowY[J] = y0 + (Math.min(ny - 1, Math.max(0, J - 1)) + 0.5) * dy;
+  if (w.nodesOf !== NX * NY || w.nodeCol.length < NX * NY) {
+    if (w.nodeCol.length < NX * NY) {
+      w.nodeCol = new Int32Array(NX * NY);
+      w.nodeRow = new Int32Array(NX * NY);
+    }
+    for (let J = 0; J < NY; J++)
+      for (let I = 0; I < NX; I++) {
+        w.nodeCol[J * NX + I] = I;
+        w.nodeRow[J * NX + I] = J;
+      }
+    w.nodesOf = NX * NY;
+  }
+  w.axes = grid;
+  w.axesX0 = x0;
+  w.axesDx = dx;
+  w.axesY0 = y0;
+  w.axesDy = dy;
 }
 
 let dpU = new Float64Array(256);

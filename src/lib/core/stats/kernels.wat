@@ -190,74 +190,155 @@
   ;; Separable smoothing of a grid of ny rows and nx columns (nx even) held with padding:
   ;; row stride sx = nx + 2 Lx (Lx zero columns each side), Ly zero rows above and below. Pass 1
   ;; smooths each row with the symmetric taps kx[0 .. Lx] into tmp (same layout, rows only);
-  ;; pass 2 smooths the columns of tmp with ky[0 .. Ly] into out (ny rows of nx, unpadded):
-  ;;   v = k[0] c + sum_{d = 1 .. L} k[d] (left_d + right_d).
+  ;; pass 2 smooths the columns of tmp with ky[0 .. Ly] into out (ny rows of nx at row stride so):
+  ;;   v = k[0] c + sum_{d = 1 .. L} k[d] (left_d + right_d),
+  ;; and writes the output's sum and largest value at pStats.
   ;; tmp's padding rows must be zero; pass 1 writes only its central columns.
   (func (export "smooth2d")
     (param $pIn i32) (param $pTmp i32) (param $pOut i32) (param $nx i32) (param $ny i32)
-    (param $pKx i32) (param $lx i32) (param $pKy i32) (param $ly i32)
-    (local $sx i32) (local $j i32) (local $i i32) (local $d i32) (local $row i32) (local $c i32)
-    (local $pa i32) (local $pb i32) (local $pk i32) (local $s v128) (local $strideB i32)
+    (param $pKx i32) (param $lx i32) (param $pKy i32) (param $ly i32) (param $so i32) (param $pStats i32)
+    (local $sx i32) (local $j i32) (local $i i32) (local $d i32) (local $row i32) (local $c i32) (local $pc i32)
+    (local $pa i32) (local $pb i32) (local $pk i32) (local $strideB i32) (local $t v128)
+    (local $s0 v128) (local $s1 v128) (local $s2 v128) (local $s3 v128) (local $sum v128) (local $max v128)
     (local.set $sx (i32.add (local.get $nx) (i32.shl (local.get $lx) (i32.const 1))))
     (local.set $strideB (i32.shl (local.get $sx) (i32.const 3)))
-    ;; pass 1: rows ly .. ly + ny - 1 of the padded grid
+    ;; pass 1: rows ly .. ly + ny - 1 of the padded grid, eight columns (four independent pairs) at a time, then pairs
     (local.set $j (i32.const 0))
     (block $rows (loop $rowl
       (br_if $rows (i32.ge_u (local.get $j) (local.get $ny)))
       (local.set $row (i32.mul (i32.add (local.get $j) (local.get $ly)) (local.get $strideB)))
       (local.set $i (i32.const 0))
-      (block $cols (loop $col
-        (br_if $cols (i32.ge_u (local.get $i) (local.get $nx)))
+      (block $quads (loop $quad
+        (br_if $quads (i32.gt_u (i32.add (local.get $i) (i32.const 8)) (local.get $nx)))
         (local.set $c (i32.add (local.get $row) (i32.shl (i32.add (local.get $i) (local.get $lx)) (i32.const 3))))
-        (local.set $s (f64x2.mul (v128.load64_splat (local.get $pKx)) (v128.load (i32.add (local.get $pIn) (local.get $c)))))
-        (local.set $pa (i32.sub (i32.add (local.get $pIn) (local.get $c)) (i32.const 8)))
-        (local.set $pb (i32.add (i32.add (local.get $pIn) (local.get $c)) (i32.const 8)))
+        (local.set $pc (i32.add (local.get $pIn) (local.get $c)))
+        (local.set $t (v128.load64_splat (local.get $pKx)))
+        (local.set $s0 (f64x2.mul (local.get $t) (v128.load offset=0 (local.get $pc))))
+        (local.set $s1 (f64x2.mul (local.get $t) (v128.load offset=16 (local.get $pc))))
+        (local.set $s2 (f64x2.mul (local.get $t) (v128.load offset=32 (local.get $pc))))
+        (local.set $s3 (f64x2.mul (local.get $t) (v128.load offset=48 (local.get $pc))))
+        (local.set $pa (i32.sub (local.get $pc) (i32.const 8)))
+        (local.set $pb (i32.add (local.get $pc) (i32.const 8)))
         (local.set $pk (i32.add (local.get $pKx) (i32.const 8)))
         (local.set $d (i32.const 1))
-        (block $taps (loop $tap
-          (br_if $taps (i32.gt_u (local.get $d) (local.get $lx)))
-          (local.set $s (f64x2.add (local.get $s)
-            (f64x2.mul (v128.load64_splat (local.get $pk)) (f64x2.add (v128.load (local.get $pa)) (v128.load (local.get $pb))))))
+        (block $taps4 (loop $tap4
+          (br_if $taps4 (i32.gt_u (local.get $d) (local.get $lx)))
+          (local.set $t (v128.load64_splat (local.get $pk)))
+          (local.set $s0 (f64x2.add (local.get $s0) (f64x2.mul (local.get $t) (f64x2.add (v128.load offset=0 (local.get $pa)) (v128.load offset=0 (local.get $pb))))))
+          (local.set $s1 (f64x2.add (local.get $s1) (f64x2.mul (local.get $t) (f64x2.add (v128.load offset=16 (local.get $pa)) (v128.load offset=16 (local.get $pb))))))
+          (local.set $s2 (f64x2.add (local.get $s2) (f64x2.mul (local.get $t) (f64x2.add (v128.load offset=32 (local.get $pa)) (v128.load offset=32 (local.get $pb))))))
+          (local.set $s3 (f64x2.add (local.get $s3) (f64x2.mul (local.get $t) (f64x2.add (v128.load offset=48 (local.get $pa)) (v128.load offset=48 (local.get $pb))))))
           (local.set $pa (i32.sub (local.get $pa) (i32.const 8)))
           (local.set $pb (i32.add (local.get $pb) (i32.const 8)))
           (local.set $pk (i32.add (local.get $pk) (i32.const 8)))
           (local.set $d (i32.add (local.get $d) (i32.const 1)))
-          (br $tap)))
-        (v128.store (i32.add (local.get $pTmp) (local.get $c)) (local.get $s))
+          (br $tap4)))
+        (local.set $pc (i32.add (local.get $pTmp) (local.get $c)))
+        (v128.store offset=0 (local.get $pc) (local.get $s0))
+        (v128.store offset=16 (local.get $pc) (local.get $s1))
+        (v128.store offset=32 (local.get $pc) (local.get $s2))
+        (v128.store offset=48 (local.get $pc) (local.get $s3))
+        (local.set $i (i32.add (local.get $i) (i32.const 8)))
+        (br $quad)))
+      (block $cols (loop $col
+        (br_if $cols (i32.ge_u (local.get $i) (local.get $nx)))
+        (local.set $c (i32.add (local.get $row) (i32.shl (i32.add (local.get $i) (local.get $lx)) (i32.const 3))))
+        (local.set $pc (i32.add (local.get $pIn) (local.get $c)))
+        (local.set $t (v128.load64_splat (local.get $pKx)))
+        (local.set $s0 (f64x2.mul (local.get $t) (v128.load offset=0 (local.get $pc))))
+        (local.set $pa (i32.sub (local.get $pc) (i32.const 8)))
+        (local.set $pb (i32.add (local.get $pc) (i32.const 8)))
+        (local.set $pk (i32.add (local.get $pKx) (i32.const 8)))
+        (local.set $d (i32.const 1))
+        (block $taps1 (loop $tap1
+          (br_if $taps1 (i32.gt_u (local.get $d) (local.get $lx)))
+          (local.set $t (v128.load64_splat (local.get $pk)))
+          (local.set $s0 (f64x2.add (local.get $s0) (f64x2.mul (local.get $t) (f64x2.add (v128.load offset=0 (local.get $pa)) (v128.load offset=0 (local.get $pb))))))
+          (local.set $pa (i32.sub (local.get $pa) (i32.const 8)))
+          (local.set $pb (i32.add (local.get $pb) (i32.const 8)))
+          (local.set $pk (i32.add (local.get $pk) (i32.const 8)))
+          (local.set $d (i32.add (local.get $d) (i32.const 1)))
+          (br $tap1)))
+        (local.set $pc (i32.add (local.get $pTmp) (local.get $c)))
+        (v128.store offset=0 (local.get $pc) (local.get $s0))
         (local.set $i (i32.add (local.get $i) (i32.const 2)))
         (br $col)))
       (local.set $j (i32.add (local.get $j) (i32.const 1)))
       (br $rowl)))
-    ;; pass 2: columns of tmp into out
+    ;; pass 2: columns of tmp into out, the same way
     (local.set $j (i32.const 0))
     (block $rows2 (loop $rowl2
       (br_if $rows2 (i32.ge_u (local.get $j) (local.get $ny)))
       (local.set $row (i32.mul (i32.add (local.get $j) (local.get $ly)) (local.get $strideB)))
       (local.set $i (i32.const 0))
-      (block $cols2 (loop $col2
-        (br_if $cols2 (i32.ge_u (local.get $i) (local.get $nx)))
+      (block $cquads (loop $cquad
+        (br_if $cquads (i32.gt_u (i32.add (local.get $i) (i32.const 8)) (local.get $nx)))
         (local.set $c (i32.add (i32.add (local.get $pTmp) (local.get $row)) (i32.shl (i32.add (local.get $i) (local.get $lx)) (i32.const 3))))
-        (local.set $s (f64x2.mul (v128.load64_splat (local.get $pKy)) (v128.load (local.get $c))))
+        (local.set $t (v128.load64_splat (local.get $pKy)))
+        (local.set $s0 (f64x2.mul (local.get $t) (v128.load offset=0 (local.get $c))))
+        (local.set $s1 (f64x2.mul (local.get $t) (v128.load offset=16 (local.get $c))))
+        (local.set $s2 (f64x2.mul (local.get $t) (v128.load offset=32 (local.get $c))))
+        (local.set $s3 (f64x2.mul (local.get $t) (v128.load offset=48 (local.get $c))))
         (local.set $pa (i32.sub (local.get $c) (local.get $strideB)))
         (local.set $pb (i32.add (local.get $c) (local.get $strideB)))
         (local.set $pk (i32.add (local.get $pKy) (i32.const 8)))
         (local.set $d (i32.const 1))
-        (block $taps2 (loop $tap2
-          (br_if $taps2 (i32.gt_u (local.get $d) (local.get $ly)))
-          (local.set $s (f64x2.add (local.get $s)
-            (f64x2.mul (v128.load64_splat (local.get $pk)) (f64x2.add (v128.load (local.get $pa)) (v128.load (local.get $pb))))))
+        (block $ctaps4 (loop $ctap4
+          (br_if $ctaps4 (i32.gt_u (local.get $d) (local.get $ly)))
+          (local.set $t (v128.load64_splat (local.get $pk)))
+          (local.set $s0 (f64x2.add (local.get $s0) (f64x2.mul (local.get $t) (f64x2.add (v128.load offset=0 (local.get $pa)) (v128.load offset=0 (local.get $pb))))))
+          (local.set $s1 (f64x2.add (local.get $s1) (f64x2.mul (local.get $t) (f64x2.add (v128.load offset=16 (local.get $pa)) (v128.load offset=16 (local.get $pb))))))
+          (local.set $s2 (f64x2.add (local.get $s2) (f64x2.mul (local.get $t) (f64x2.add (v128.load offset=32 (local.get $pa)) (v128.load offset=32 (local.get $pb))))))
+          (local.set $s3 (f64x2.add (local.get $s3) (f64x2.mul (local.get $t) (f64x2.add (v128.load offset=48 (local.get $pa)) (v128.load offset=48 (local.get $pb))))))
           (local.set $pa (i32.sub (local.get $pa) (local.get $strideB)))
           (local.set $pb (i32.add (local.get $pb) (local.get $strideB)))
           (local.set $pk (i32.add (local.get $pk) (i32.const 8)))
           (local.set $d (i32.add (local.get $d) (i32.const 1)))
-          (br $tap2)))
-        (v128.store
-          (i32.add (local.get $pOut) (i32.shl (i32.add (i32.mul (local.get $j) (local.get $nx)) (local.get $i)) (i32.const 3)))
-          (local.get $s))
+          (br $ctap4)))
+        (local.set $pc (i32.add (local.get $pOut) (i32.shl (i32.add (i32.mul (local.get $j) (local.get $so)) (local.get $i)) (i32.const 3))))
+        (v128.store offset=0 (local.get $pc) (local.get $s0))
+        (local.set $sum (f64x2.add (local.get $sum) (local.get $s0)))
+        (local.set $max (f64x2.max (local.get $max) (local.get $s0)))
+        (v128.store offset=16 (local.get $pc) (local.get $s1))
+        (local.set $sum (f64x2.add (local.get $sum) (local.get $s1)))
+        (local.set $max (f64x2.max (local.get $max) (local.get $s1)))
+        (v128.store offset=32 (local.get $pc) (local.get $s2))
+        (local.set $sum (f64x2.add (local.get $sum) (local.get $s2)))
+        (local.set $max (f64x2.max (local.get $max) (local.get $s2)))
+        (v128.store offset=48 (local.get $pc) (local.get $s3))
+        (local.set $sum (f64x2.add (local.get $sum) (local.get $s3)))
+        (local.set $max (f64x2.max (local.get $max) (local.get $s3)))
+        (local.set $i (i32.add (local.get $i) (i32.const 8)))
+        (br $cquad)))
+      (block $cols2 (loop $col2
+        (br_if $cols2 (i32.ge_u (local.get $i) (local.get $nx)))
+        (local.set $c (i32.add (i32.add (local.get $pTmp) (local.get $row)) (i32.shl (i32.add (local.get $i) (local.get $lx)) (i32.const 3))))
+        (local.set $t (v128.load64_splat (local.get $pKy)))
+        (local.set $s0 (f64x2.mul (local.get $t) (v128.load offset=0 (local.get $c))))
+        (local.set $pa (i32.sub (local.get $c) (local.get $strideB)))
+        (local.set $pb (i32.add (local.get $c) (local.get $strideB)))
+        (local.set $pk (i32.add (local.get $pKy) (i32.const 8)))
+        (local.set $d (i32.const 1))
+        (block $ctaps1 (loop $ctap1
+          (br_if $ctaps1 (i32.gt_u (local.get $d) (local.get $ly)))
+          (local.set $t (v128.load64_splat (local.get $pk)))
+          (local.set $s0 (f64x2.add (local.get $s0) (f64x2.mul (local.get $t) (f64x2.add (v128.load offset=0 (local.get $pa)) (v128.load offset=0 (local.get $pb))))))
+          (local.set $pa (i32.sub (local.get $pa) (local.get $strideB)))
+          (local.set $pb (i32.add (local.get $pb) (local.get $strideB)))
+          (local.set $pk (i32.add (local.get $pk) (i32.const 8)))
+          (local.set $d (i32.add (local.get $d) (i32.const 1)))
+          (br $ctap1)))
+        (local.set $pc (i32.add (local.get $pOut) (i32.shl (i32.add (i32.mul (local.get $j) (local.get $so)) (local.get $i)) (i32.const 3))))
+        (v128.store offset=0 (local.get $pc) (local.get $s0))
+        (local.set $sum (f64x2.add (local.get $sum) (local.get $s0)))
+        (local.set $max (f64x2.max (local.get $max) (local.get $s0)))
         (local.set $i (i32.add (local.get $i) (i32.const 2)))
         (br $col2)))
       (local.set $j (i32.add (local.get $j) (i32.const 1)))
-      (br $rowl2))))
+      (br $rowl2)))
+    ;; the sum (two lanes added) and the largest value of the output
+    (f64.store (local.get $pStats) (f64.add (f64x2.extract_lane 0 (local.get $sum)) (f64x2.extract_lane 1 (local.get $sum))))
+    (f64.store offset=8 (local.get $pStats) (f64.max (f64x2.extract_lane 0 (local.get $max)) (f64x2.extract_lane 1 (local.get $max)))))
 
   ;; Sorting of weighted draws by value (sortDraws in summary.ts): the draws with a positive
   ;; weight and a value that is not NaN, from x[0 .. n - 1] and w[0 .. n - 1], into ox and ow
@@ -627,4 +708,155 @@
           (local.set $i (i32.add (local.get $i) (i32.const 1)))
           (br $lz)))))
     (local.get $sw))
+
+  ;; Credible levels of a grid (creditLevels in density.ts, its buckets): cell values at
+  ;; z + (j stride + i) 8 for i < nx, j < ny. levelBuckets puts each positive value v in bucket
+  ;; min(B - 1, trunc(v scale)) (stored per cell at pBkt, -1 for v <= 0) and adds v to its
+  ;; bucket's mass (pMass, B float64, zero before), through runs of neighbouring cells in one bucket.
+  (func (export "levelBuckets")
+    (param $pZ i32) (param $stride i32) (param $nx i32) (param $ny i32) (param $scale f64) (param $B i32) (param $pMass i32) (param $pBkt i32)
+    (local $i i32) (local $j i32) (local $v f64) (local $b i32) (local $pm i32) (local $row i32) (local $c i32) (local $cur i32) (local $run f64)
+    ;; neighbouring cells mostly share a bucket: their values are summed in a run, added to the bucket when it changes
+    (local.set $cur (i32.const -1))
+    (block $rows (loop $rowl
+      (br_if $rows (i32.ge_u (local.get $j) (local.get $ny)))
+      (local.set $row (i32.add (local.get $pZ) (i32.shl (i32.mul (local.get $j) (local.get $stride)) (i32.const 3))))
+      (local.set $i (i32.const 0))
+      (block $cols (loop $col
+        (br_if $cols (i32.ge_u (local.get $i) (local.get $nx)))
+        (local.set $v (f64.load (i32.add (local.get $row) (i32.shl (local.get $i) (i32.const 3)))))
+        (if (f64.gt (local.get $v) (f64.const 0))
+          (then
+            (local.set $b (i32.trunc_sat_f64_u (f64.mul (local.get $v) (local.get $scale))))
+            (if (i32.ge_u (local.get $b) (local.get $B)) (then (local.set $b (i32.sub (local.get $B) (i32.const 1)))))
+            (if (i32.ne (local.get $b) (local.get $cur))
+              (then
+                (if (i32.ge_s (local.get $cur) (i32.const 0))
+                  (then
+                    (local.set $pm (i32.add (local.get $pMass) (i32.shl (local.get $cur) (i32.const 3))))
+                    (f64.store (local.get $pm) (f64.add (f64.load (local.get $pm)) (local.get $run)))))
+                (local.set $cur (local.get $b))
+                (local.set $run (f64.const 0))))
+            (local.set $run (f64.add (local.get $run) (local.get $v))))
+          (else (local.set $b (i32.const -1))))
+        (i32.store (i32.add (local.get $pBkt) (i32.shl (local.get $c) (i32.const 2))) (local.get $b))
+        (local.set $c (i32.add (local.get $c) (i32.const 1)))
+        (local.set $i (i32.add (local.get $i) (i32.const 1)))
+        (br $col)))
+      (local.set $j (i32.add (local.get $j) (i32.const 1)))
+      (br $rowl)))
+    (if (i32.ge_s (local.get $cur) (i32.const 0))
+      (then
+        (local.set $pm (i32.add (local.get $pMass) (i32.shl (local.get $cur) (i32.const 3))))
+        (f64.store (local.get $pm) (f64.add (f64.load (local.get $pm)) (local.get $run))))))
+
+  ;; The values of the cells in bucket b1 (to pOut1) and in bucket b2 (to pOut2), counts at
+  ;; pCount (two i32); and the box of the cells in buckets >= bMin (i0, i1, j0, j1 as i32 at pBox;
+  ;; i1 = -1 when there are none).
+  (func (export "levelCells")
+    (param $pZ i32) (param $stride i32) (param $nx i32) (param $ny i32) (param $pBkt i32) (param $b1 i32) (param $b2 i32) (param $bMin i32)
+    (param $pOut1 i32) (param $pOut2 i32) (param $pCount i32) (param $pBox i32)
+    (local $i i32) (local $j i32) (local $b i32) (local $c i32) (local $n1 i32) (local $n2 i32) (local $v f64)
+    (local $i0 i32) (local $i1 i32) (local $j0 i32) (local $j1 i32)
+    (local.set $i0 (local.get $nx))
+    (local.set $i1 (i32.const -1))
+    (local.set $j0 (local.get $ny))
+    (local.set $j1 (i32.const -1))
+    (block $rows (loop $rowl
+      (br_if $rows (i32.ge_u (local.get $j) (local.get $ny)))
+      (local.set $i (i32.const 0))
+      (block $cols (loop $col
+        (br_if $cols (i32.ge_u (local.get $i) (local.get $nx)))
+        (local.set $b (i32.load (i32.add (local.get $pBkt) (i32.shl (local.get $c) (i32.const 2)))))
+        (if (i32.ge_s (local.get $b) (local.get $bMin))
+          (then
+            (if (i32.lt_s (local.get $i) (local.get $i0)) (then (local.set $i0 (local.get $i))))
+            (if (i32.gt_s (local.get $i) (local.get $i1)) (then (local.set $i1 (local.get $i))))
+            (if (i32.lt_s (local.get $j) (local.get $j0)) (then (local.set $j0 (local.get $j))))
+            (if (i32.gt_s (local.get $j) (local.get $j1)) (then (local.set $j1 (local.get $j))))
+            (if (i32.or (i32.eq (local.get $b) (local.get $b1)) (i32.eq (local.get $b) (local.get $b2)))
+              (then
+                (local.set $v (f64.load (i32.add (local.get $pZ)
+                  (i32.shl (i32.add (i32.mul (local.get $j) (local.get $stride)) (local.get $i)) (i32.const 3)))))
+                (if (i32.eq (local.get $b) (local.get $b1))
+                  (then
+                    (f64.store (i32.add (local.get $pOut1) (i32.shl (local.get $n1) (i32.const 3))) (local.get $v))
+                    (local.set $n1 (i32.add (local.get $n1) (i32.const 1)))))
+                (if (i32.eq (local.get $b) (local.get $b2))
+                  (then
+                    (f64.store (i32.add (local.get $pOut2) (i32.shl (local.get $n2) (i32.const 3))) (local.get $v))
+                    (local.set $n2 (i32.add (local.get $n2) (i32.const 1)))))))))
+        (local.set $c (i32.add (local.get $c) (i32.const 1)))
+        (local.set $i (i32.add (local.get $i) (i32.const 1)))
+        (br $col)))
+      (local.set $j (i32.add (local.get $j) (i32.const 1)))
+      (br $rowl)))
+    (i32.store (local.get $pCount) (local.get $n1))
+    (i32.store offset=4 (local.get $pCount) (local.get $n2))
+    (i32.store (local.get $pBox) (local.get $i0))
+    (i32.store offset=4 (local.get $pBox) (local.get $i1))
+    (i32.store offset=8 (local.get $pBox) (local.get $j0))
+    (i32.store offset=12 (local.get $pBox) (local.get $j1)))
+
+  ;; Linear binning of draws onto a 2-D grid (binLinear in density.ts): per draw k with w > 0 and
+  ;; both cells >= 0, at c = origin + (cy stride + cx) 8 bytes, the four weights
+  ;; w (1 - fy)(1 - fx), w (1 - fy) fx, w fy (1 - fx), w fy fx at c, c + 8, c + stride, c + stride + 8.
+  ;; cx, cy i32 per draw; fx, fy, w float64.
+  (func (export "binLinear2d")
+    (param $pCx i32) (param $pFx i32) (param $pCy i32) (param $pFy i32) (param $pW i32) (param $n i32) (param $pOrigin i32) (param $stride i32)
+    (local $k i32) (local $w f64) (local $i i32) (local $j i32) (local $gx f64) (local $gy f64) (local $a f64) (local $b f64) (local $c i32) (local $sb i32)
+    (local.set $sb (i32.shl (local.get $stride) (i32.const 3)))
+    (block $done (loop $draw
+      (br_if $done (i32.ge_u (local.get $k) (local.get $n)))
+      (local.set $w (f64.load (i32.add (local.get $pW) (i32.shl (local.get $k) (i32.const 3)))))
+      (local.set $i (i32.load (i32.add (local.get $pCx) (i32.shl (local.get $k) (i32.const 2)))))
+      (local.set $j (i32.load (i32.add (local.get $pCy) (i32.shl (local.get $k) (i32.const 2)))))
+      (if (i32.and (f64.gt (local.get $w) (f64.const 0)) (i32.ge_s (i32.or (local.get $i) (local.get $j)) (i32.const 0)))
+        (then
+          (local.set $gx (f64.load (i32.add (local.get $pFx) (i32.shl (local.get $k) (i32.const 3)))))
+          (local.set $gy (f64.load (i32.add (local.get $pFy) (i32.shl (local.get $k) (i32.const 3)))))
+          (local.set $a (f64.mul (local.get $w) (f64.sub (f64.const 1) (local.get $gy))))
+          (local.set $b (f64.mul (local.get $w) (local.get $gy)))
+          (local.set $c (i32.add (local.get $pOrigin) (i32.shl (i32.add (i32.mul (local.get $j) (local.get $stride)) (local.get $i)) (i32.const 3))))
+          (f64.store (local.get $c) (f64.add (f64.load (local.get $c)) (f64.mul (local.get $a) (f64.sub (f64.const 1) (local.get $gx)))))
+          (f64.store offset=8 (local.get $c) (f64.add (f64.load offset=8 (local.get $c)) (f64.mul (local.get $a) (local.get $gx))))
+          (local.set $c (i32.add (local.get $c) (local.get $sb)))
+          (f64.store (local.get $c) (f64.add (f64.load (local.get $c)) (f64.mul (local.get $b) (f64.sub (f64.const 1) (local.get $gx)))))
+          (f64.store offset=8 (local.get $c) (f64.add (f64.load offset=8 (local.get $c)) (f64.mul (local.get $b) (local.get $gx))))))
+      (local.set $k (i32.add (local.get $k) (i32.const 1)))
+      (br $draw))))
+
+  ;; Marching-squares cell codes (traceContours in density.ts): over the cells with lower-left
+  ;; node I = I0 .. I1, J = J0 .. J1 of a node grid of row stride NX (float64 at pV), the code
+  ;; bl >= level | br >= level << 1 | tr >= level << 2 | tl >= level << 3 of each cell that is
+  ;; neither all outside (0) nor all inside (15), as (node index, code) i32 pairs at pOut, in row
+  ;; order. Returns their number.
+  (func (export "cellCodes")
+    (param $pV i32) (param $NX i32) (param $I0 i32) (param $I1 i32) (param $J0 i32) (param $J1 i32) (param $level f64) (param $pOut i32)
+    (result i32)
+    (local $I i32) (local $J i32) (local $n0 i32) (local $p i32) (local $code i32) (local $count i32) (local $row i32)
+    (local.set $row (i32.shl (local.get $NX) (i32.const 3)))
+    (local.set $J (local.get $J0))
+    (block $rows (loop $rowl
+      (br_if $rows (i32.gt_s (local.get $J) (local.get $J1)))
+      (local.set $I (local.get $I0))
+      (block $cols (loop $col
+        (br_if $cols (i32.gt_s (local.get $I) (local.get $I1)))
+        (local.set $n0 (i32.add (i32.mul (local.get $J) (local.get $NX)) (local.get $I)))
+        (local.set $p (i32.add (local.get $pV) (i32.shl (local.get $n0) (i32.const 3))))
+        (local.set $code (i32.or
+          (i32.or (f64.ge (f64.load (local.get $p)) (local.get $level))
+                  (i32.shl (f64.ge (f64.load offset=8 (local.get $p)) (local.get $level)) (i32.const 1)))
+          (i32.or (i32.shl (f64.ge (f64.load offset=8 (i32.add (local.get $p) (local.get $row))) (local.get $level)) (i32.const 2))
+                  (i32.shl (f64.ge (f64.load (i32.add (local.get $p) (local.get $row))) (local.get $level)) (i32.const 3)))))
+        (if (i32.and (i32.ne (local.get $code) (i32.const 0)) (i32.ne (local.get $code) (i32.const 15)))
+          (then
+            (i32.store (i32.add (local.get $pOut) (i32.shl (local.get $count) (i32.const 3))) (local.get $n0))
+            (i32.store offset=4 (i32.add (local.get $pOut) (i32.shl (local.get $count) (i32.const 3))) (local.get $code))
+            (local.set $count (i32.add (local.get $count) (i32.const 1)))))
+        (local.set $I (i32.add (local.get $I) (i32.const 1)))
+        (br $col)))
+      (local.set $J (i32.add (local.get $J) (i32.const 1)))
+      (br $rowl)))
+    (local.get $count))
 )

@@ -20,7 +20,11 @@ interface Exports {
   memory: WebAssembly.Memory;
   convSym(pMesh: number, pKer: number, pOut: number, G: number, L: number, r: number): void;
   crossProducts(pT: number, pU: number, n: number, k: number, kk: number, pOut: number): void;
-  smooth2d(pIn: number, pTmp: number, pOut: number, nx: number, ny: number, pKx: number, lx: number, pKy: number, ly: number): void;
+  smooth2d(pIn: number, pTmp: number, pOut: number, nx: number, ny: number, pKx: number, lx: number, pKy: number, ly: number, so: number, pStats: number): void;
+  levelBuckets(pZ: number, stride: number, nx: number, ny: number, scale: number, B: number, pMass: number, pBkt: number): void;
+  levelCells(pZ: number, stride: number, nx: number, ny: number, pBkt: number, b1: number, b2: number, bMin: number, pOut1: number, pOut2: number, pCount: number, pBox: number): void;
+  binLinear2d(pCx: number, pFx: number, pCy: number, pFy: number, pW: number, n: number, pOrigin: number, stride: number): void;
+  cellCodes(pV: number, NX: number, I0: number, I1: number, J0: number, J1: number, level: number, pOut: number): number;
   sortDraws(pX: number, pW: number, n: number, pOX: number, pOW: number, pWork: number, pTotal: number): number;
   summarySorted(pX: number, pW: number, n: number, total: number, pProbs: number, K: number, need68: number, need95: number, pOut: number): void;
   binLinear1d(pX: number, pW: number, n: number, origin: number, inv: number, M: number, pMesh: number): number;
@@ -222,12 +226,14 @@ export function crossProducts(t: number, u: number, n: number, k: number, out: n
  * Separable smoothing (nx even): the grid at slot `inp` has ny rows of stride sx = nx + 2 lx
  * with lx zero columns each side and ly zero rows above and below; rows are smoothed with taps
  * kx[0 .. lx] into `tmp` (same layout; its padding rows must be zero), then columns with
- * ky[0 .. ly] into `out` (ny rows of nx). Each value is k[0] c + sum_d k[d] (left + right).
+ * ky[0 .. ly] into `out` (ny rows of nx at row stride `so`). Each value is
+ * k[0] c + sum_d k[d] (left + right). Writes the output's sum and largest value to slots
+ * stats, stats + 1 (the sum taken in two halves, so its rounding is not that of one running sum).
  */
-export function smooth2d(inp: number, tmp: number, out: number, nx: number, ny: number, kx: number, lx: number, ky: number, ly: number): void {
+export function smooth2d(inp: number, tmp: number, out: number, nx: number, ny: number, kx: number, lx: number, ky: number, ly: number, so: number, stats: number): void {
   const x = wasm();
   if (x) {
-    x.smooth2d(inp * 8, tmp * 8, out * 8, nx, ny, kx * 8, lx, ky * 8, ly);
+    x.smooth2d(inp * 8, tmp * 8, out * 8, nx, ny, kx * 8, lx, ky * 8, ly, so, stats * 8);
     return;
   }
   const m = memory();
@@ -239,13 +245,119 @@ export function smooth2d(inp: number, tmp: number, out: number, nx: number, ny: 
       for (let d = 1; d <= lx; d++) s += m[kx + d] * (m[inp + c - d] + m[inp + c + d]);
       m[tmp + c] = s;
     }
+  let even = 0, odd = 0, max = -Infinity;
   for (let j = 0; j < ny; j++)
     for (let i = 0; i < nx; i++) {
       const c = tmp + (j + ly) * sx + i + lx;
       let s = m[ky] * m[c];
       for (let d = 1; d <= ly; d++) s += m[ky + d] * (m[c - d * sx] + m[c + d * sx]);
-      m[out + j * nx + i] = s;
+      m[out + j * so + i] = s;
+      if (i & 1) odd += s;
+      else even += s;
+      if (s > max) max = s;
     }
+  m[stats] = even + odd;
+  m[stats + 1] = max;
+}
+
+/**
+ * Buckets for `creditLevels` over the cells at slot z + j stride + i (i < nx, j < ny): each
+ * positive value v goes to bucket min(B - 1, trunc(v scale)) (recorded per cell in row order in
+ * `bucket`, -1 for v <= 0) and adds v to mass[b] (slots from `mass`, zero before), summed in
+ * runs of neighbouring cells of one bucket.
+ */
+export function levelBuckets(z: number, stride: number, nx: number, ny: number, scale: number, B: number, mass: number, bucket: Int32Array): void {
+  const X = wasm();
+  if (X) {
+    X.levelBuckets(z * 8, stride, nx, ny, scale, B, mass * 8, bucket.byteOffset);
+    return;
+  }
+  const m = memory();
+  let c = 0;
+  let cur = -1;
+  let run = 0;
+  for (let j = 0; j < ny; j++)
+    for (let i = 0; i < nx; i++, c++) {
+      const v = m[z + j * stride + i];
+      if (v > 0) {
+        let b = Math.trunc(v * scale);
+        if (b >= B) b = B - 1;
+        if (b !== cur) {
+          if (cur >= 0) m[mass + cur] += run;
+          cur = b;
+          run = 0;
+        }
+        run += v;
+        bucket[c] = b;
+      } else bucket[c] = -1;
+    }
+  if (cur >= 0) m[mass + cur] += run;
+}
+
+/**
+ * The values of the cells (as in `levelBuckets`) in bucket b1 and in bucket b2, into slots
+ * out1 and out2, with their counts; and the box [i0, i1, j0, j1] of the cells in buckets >= bMin
+ * (i1 = -1 when none).
+ */
+export function levelCells(z: number, stride: number, nx: number, ny: number, bucket: Int32Array, b1: number, b2: number, bMin: number, out1: number, out2: number, io: Int32Array): { n1: number; n2: number } {
+  const X = wasm();
+  if (X) {
+    X.levelCells(z * 8, stride, nx, ny, bucket.byteOffset, b1, b2, bMin, out1 * 8, out2 * 8, io.byteOffset, io.byteOffset + 8);
+    return { n1: io[0], n2: io[1] };
+  }
+  const m = memory();
+  let n1 = 0, n2 = 0, i0 = nx, i1 = -1, j0 = ny, j1 = -1, c = 0;
+  for (let j = 0; j < ny; j++)
+    for (let i = 0; i < nx; i++, c++) {
+      const b = bucket[c];
+      if (b < bMin) continue;
+      if (i < i0) i0 = i;
+      if (i > i1) i1 = i;
+      if (j < j0) j0 = j;
+      if (j > j1) j1 = j;
+      if (b === b1) m[out1 + n1++] = m[z + j * stride + i];
+      if (b === b2) m[out2 + n2++] = m[z + j * stride + i];
+    }
+  io[2] = i0;
+  io[3] = i1;
+  io[4] = j0;
+  io[5] = j1;
+  return { n1, n2 };
+}
+
+/**
+ * Linear binning of draws onto a grid at slot origin (row stride `stride`): each draw with
+ * w > 0 and both cells >= 0 adds w (1 - fy)(1 - fx), w (1 - fy) fx, w fy (1 - fx), w fy fx to
+ * cells (cx, cy), (cx + 1, cy), (cx, cy + 1), (cx + 1, cy + 1). cx, cy are Int32Arrays and
+ * fx, fy, w Float64Arrays in this memory.
+ */
+export function binLinear2d(cx: Int32Array, fx: Float64Array, cy: Int32Array, fy: Float64Array, w: Float64Array, n: number, origin: number, stride: number): void {
+  const X = wasm();
+  if (X && cx.buffer === X.memory.buffer && cy.buffer === cx.buffer && fx.buffer === cx.buffer && fy.buffer === cx.buffer && w.buffer === cx.buffer) {
+    X.binLinear2d(cx.byteOffset, fx.byteOffset, cy.byteOffset, fy.byteOffset, w.byteOffset, n, origin * 8, stride);
+    return;
+  }
+  const m = memory();
+  for (let k = 0; k < n; k++) {
+    const wk = w[k];
+    const i = cx[k];
+    const j = cy[k];
+    if (!(wk > 0) || i < 0 || j < 0) continue;
+    const c = origin + j * stride + i;
+    const gx = fx[k];
+    const gy = fy[k];
+    const a = wk * (1 - gy);
+    const b = wk * gy;
+    m[c] += a * (1 - gx);
+    m[c + 1] += a * gx;
+    m[c + stride] += b * (1 - gx);
+    m[c + stride + 1] += b * gx;
+  }
+}
+
+/** An Int32Array over `count` int32 values at slot `at` (count / 2 slots, rounded up). */
+export function int32At(at: number, count: number): Int32Array {
+  return new Int32Array(memory().buffer, at * 8, count);
 }
 
 /**
@@ -280,4 +392,26 @@ export function summarySortedAt(x: number, w: number, n: number, total: number, 
   if (!X) return false;
   X.summarySorted(x * 8, w * 8, n, total, probs * 8, K, need68, need95, out * 8);
   return true;
+}
+
+/**
+ * Marching-squares codes of the cells with lower-left node I0 .. I1, J0 .. J1 of the node grid
+ * V (row stride NX): for each cell neither wholly outside nor wholly inside `level`, its node
+ * index and code (bl >= level: 1, br: 2, tr: 4, tl: 8) as a pair in `out`, in row order;
+ * returns their number. V and out may be JavaScript arrays (scalar loop) or lie in this memory.
+ */
+export function cellCodes(V: Float64Array, NX: number, I0: number, I1: number, J0: number, J1: number, level: number, out: Int32Array): number {
+  const X = wasm();
+  if (X && V.buffer === X.memory.buffer && out.buffer === V.buffer) return X.cellCodes(V.byteOffset, NX, I0, I1, J0, J1, level, out.byteOffset);
+  let count = 0;
+  for (let J = J0; J <= J1; J++)
+    for (let I = I0; I <= I1; I++) {
+      const n0 = J * NX + I;
+      const code = (V[n0] >= level ? 1 : 0) | (V[n0 + 1] >= level ? 2 : 0) | (V[n0 + NX + 1] >= level ? 4 : 0) | (V[n0 + NX] >= level ? 8 : 0);
+      if (code === 0 || code === 15) continue;
+      out[2 * count] = n0;
+      out[2 * count + 1] = code;
+      count++;
+    }
+  return count;
 }

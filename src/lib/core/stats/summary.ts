@@ -3,7 +3,7 @@
  * covariance and correlation. Weights need not be normalised; zero weights carry no mass.
  */
 import { PosterityError, problem } from '../problems.ts';
-import { alloc, memory, place, release, sortDrawsAt } from './simd.ts';
+import { alloc, covarianceTerms, crossProducts, memory, offsetOf, place, release, sortDrawsAt, summarySortedAt } from './simd.ts';
 
 export { autocorrEss } from './autocorr.ts';
 
@@ -166,9 +166,29 @@ function radixWork(n: number): RadixWork {
 }
 
 /**
+ * Sorts k[0..n) by the order-preserving 64-bit pattern of each value (-0 before +0), ties in
+ * their original order, permuting v alongside (a comparison sort of indices; for the draws whose
+ * high words tie too often for `radixSortPairs`' insertion pass).
+ */
+function stableSortPairs(k: Float64Array, v: Float64Array, n: number): void {
+  const order = Array.from({ length: n }, (_, i) => i).sort((a, b) => {
+    const x = k[a], y = k[b];
+    if (x !== y) return x < y ? -1 : 1;
+    const nx = Object.is(x, -0), ny = Object.is(y, -0); // -0 before +0
+    return nx !== ny ? (nx ? -1 : 1) : a - b;
+  });
+  const ks = Float64Array.from(order, (i) => k[i]);
+  const vs = Float64Array.from(order, (i) => v[i]);
+  k.set(ks);
+  v.set(vs);
+}
+
+/**
  * Sorts k[0..n) ascending, permuting v alongside: LSD radix sort (8-bit digits) on the high
  * 32 bits of the order-preserving bit pattern of each double, skipping constant digits, then an
- * insertion pass on the full 64 bits that settles draws sharing their high word.
+ * insertion pass on the full 64 bits that settles draws sharing their high word (or, when many
+ * do, `stableSortPairs`). The order is that of the 64-bit pattern (-0 before +0), ties in
+ * their original order.
  */
 function radixSortPairs(k: Float64Array, v: Float64Array, n: number): void {
   const wk = radixWork(n);
@@ -235,7 +255,7 @@ function radixSortPairs(k: Float64Array, v: Float64Array, n: number): void {
       idx[j + 1] = idx[j];
       j--;
       if (--budget < 0) {
-        sortPairs(k, v, n);
+        stableSortPairs(k, v, n);
         return;
       }
     }
@@ -415,26 +435,29 @@ export function hdi(x: Float64Array, w: Float64Array, level: number): [number, n
  */
 export function weightedCovariance(cols: readonly Float64Array[], w: Float64Array): Float64Array {
   const k = cols.length;
+  const n = w.length;
+  const kk = k + (k & 1);
   const cov = new Float64Array(k * k);
-  const means = new Float64Array(k);
-  for (let a = 0; a < k; a++) means[a] = weightedMean(cols[a], w);
-  let sw = 0;
-  for (let i = 0; i < w.length; i++) sw += w[i];
-  for (let a = 0; a < k; a++) {
-    const xa = cols[a];
-    const ma = means[a];
-    for (let b = a; b < k; b++) {
-      const xb = cols[b];
-      const mb = means[b];
-      let s = 0;
-      for (let i = 0; i < w.length; i++) {
-        const wi = w[i];
-        if (wi === 0) continue;
-        s += wi * (xa[i] - ma) * (xb[i] - mb);
-      }
-      cov[a * k + b] = cov[b * k + a] = s / sw;
-    }
+  if (k === 0) return cov;
+  // the means, then the cross products in the draws' order (kernels.wat, or its scalar loops)
+  const base = alloc(0);
+  const pw = place(w);
+  // the columns as one block of slots: where they already are, when they lie so in the SIMD memory
+  const first = offsetOf(cols[0]);
+  let px = first;
+  for (let a = 0; a < k && px >= 0; a++) if (cols[a].length !== n || offsetOf(cols[a]) !== first + a * n) px = -1;
+  if (px < 0) {
+    px = alloc(k * n);
+    for (let a = 0; a < k; a++) memory().set(cols[a].subarray(0, n), px + a * n);
   }
+  const t = alloc(k * n + n * kk + k * kk);
+  const u = t + k * n;
+  const p = u + n * kk;
+  const sw = covarianceTerms(pw, px, n, k, t, u);
+  crossProducts(t, u, n, k, p);
+  const m = memory();
+  for (let a = 0; a < k; a++) for (let b = a; b < k; b++) cov[a * k + b] = cov[b * k + a] = m[p + a * kk + b] / sw;
+  release(base);
   return cov;
 }
 
@@ -495,6 +518,33 @@ export function meanStdSorted(s: SortedDraws, out: Float64Array, at = 0): void {
 
 /** `summarise` of draws already sorted by `sortDraws` (so that one sort can serve several uses). */
 export function summariseSorted(s: SortedDraws): ParamSummary {
+  if (s.n >= 1) {
+    // one WebAssembly call (kernels.wat), the same operations as the scalar route below
+    const base = alloc(0);
+    const px = place(s.x.subarray(0, s.n));
+    const pw = place(s.w.subarray(0, s.n));
+    const probs = alloc(SUMMARY_PROBS.length + 2 + SUMMARY_PROBS.length + 5);
+    const out = probs + SUMMARY_PROBS.length;
+    memory().set(SUMMARY_PROBS, probs);
+    const K = SUMMARY_PROBS.length;
+    if (summarySortedAt(px, pw, s.n, s.total, probs, K, 0.68 * s.total * (1 - 1e-12), 0.95 * s.total * (1 - 1e-12), out)) {
+      const m = memory();
+      const r: ParamSummary = {
+        mean: m[out],
+        std: m[out + 1],
+        p025: m[out + 2],
+        p16: m[out + 3],
+        p50: m[out + 5],
+        p84: m[out + 7],
+        p975: m[out + 8],
+        hdi68: [m[out + 2 + K], m[out + 3 + K]],
+        hdi95: [m[out + 4 + K], m[out + 5 + K]],
+      };
+      release(base);
+      return r;
+    }
+    release(base);
+  }
   const ms = new Float64Array(2);
   meanStdSorted(s, ms);
   quantilesSorted(s, SUMMARY_PROBS, walk);
