@@ -11,7 +11,6 @@ const NOT_FINITE = 'null';
 export class JsonWriter {
   private buf = new Uint8Array(1 << 16);
   private at = 0;
-  private readonly digits = new Uint8Array(24);
 
   get length(): number {
     return this.at;
@@ -101,82 +100,119 @@ export class JsonWriter {
    * when e < 0 (given, so that it is not computed per value).
    */
   decimal(v: number, e: number, p = e < 0 ? 10 ** -e : 1): void {
-    if (v === 0) {
-      this.byte(48); // "0", also for -0
-      return;
-    }
-    if (!Number.isFinite(v)) {
-      this.ascii(NOT_FINITE);
-      return;
-    }
-    const a = v < 0 ? -v : v;
-    if (e >= 0) {
-      if (a >= 2 ** 52) return this.number(v);
-      if (v < 0) this.byte(45);
-      this.integer(a);
-      return;
-    }
-    if (e < -15 || a < 1e-6) return this.number(v);
-    const m = Math.round(a * p);
-    // below 2^50 the spacing 10^e of such decimals exceeds twice the double spacing at v, so the
-    // shortest round-trip digits are the mantissa's; above, leave it to String
-    if (m >= 2 ** 50) return this.number(v);
-    // digits of m, least significant first
-    const d = this.digits;
-    let n = 0;
-    if (m < 2147483648) {
-      let t = m | 0;
-      while (t > 0) {
-        const q = (t / 10) | 0;
-        d[n++] = t - 10 * q;
-        t = q;
-      }
-    } else {
-      let t = m;
-      while (t > 0) {
-        const q = Math.floor(t / 10);
-        d[n++] = t - 10 * q;
-        t = q;
-      }
-    }
-    const frac = -e; // digits after the point
-    let low = 0; // trailing zeros of the fraction are not written
-    while (low < frac && low < n && d[low] === 0) low++;
-    this.room(n + frac + 3);
+    this.room(MAX_NUMBER);
+    this.at = putDecimal(this.buf, this.at, v, e, p);
+  }
+
+  /**
+   * `[[x0,y0],[x1,y1],...]` of `count` points of `xy` (x and y interleaved) from point `from`,
+   * each coordinate as `decimal` (or `number` when its exponent is null) writes it.
+   */
+  points(xy: Float64Array, from: number, count: number, ex: number | null, px: number, ey: number | null, py: number): void {
+    this.room(2 + count * (2 * MAX_NUMBER + 4));
     const b = this.buf;
     let at = this.at;
-    if (v < 0) b[at++] = 45;
-    if (n <= frac) {
-      b[at++] = 48;
-      b[at++] = 46;
-      for (let i = frac; i > n; i--) b[at++] = 48;
-      for (let i = n - 1; i >= low; i--) b[at++] = 48 + d[i];
-    } else {
-      for (let i = n - 1; i >= frac; i--) b[at++] = 48 + d[i];
-      if (low < frac) {
-        b[at++] = 46;
-        for (let i = frac - 1; i >= low; i--) b[at++] = 48 + d[i];
-      }
+    b[at++] = 91;
+    for (let q = 0; q < count; q++) {
+      if (q) b[at++] = 44;
+      b[at++] = 91;
+      const x = xy[2 * (from + q)];
+      at = ex === null ? putAscii(b, at, numberText(x)) : putDecimal(b, at, x, ex, px);
+      b[at++] = 44;
+      const y = xy[2 * (from + q) + 1];
+      at = ey === null ? putAscii(b, at, numberText(y)) : putDecimal(b, at, y, ey, py);
+      b[at++] = 93;
     }
+    b[at++] = 93;
     this.at = at;
   }
 
   /** A non-negative integer below 2^53. */
   private integer(m: number): void {
-    const d = this.digits;
-    let n = 0;
+    this.room(MAX_NUMBER);
+    this.at = putInteger(this.buf, this.at, m);
+  }
+}
+
+/** Bytes a number's text can take (`String` of a double is at most 25 characters). */
+const MAX_NUMBER = 26;
+const digitWork = new Uint8Array(24);
+
+function numberText(v: number): string {
+  return Number.isFinite(v) ? String(v) : NOT_FINITE;
+}
+
+function putAscii(b: Uint8Array, at: number, s: string): number {
+  for (let i = 0; i < s.length; i++) b[at++] = s.charCodeAt(i);
+  return at;
+}
+
+function putInteger(b: Uint8Array, at: number, m: number): number {
+  const d = digitWork;
+  let n = 0;
+  let t = m;
+  do {
+    const q = Math.floor(t / 10);
+    d[n++] = t - 10 * q;
+    t = q;
+  } while (t > 0);
+  for (let i = n - 1; i >= 0; i--) b[at++] = 48 + d[i];
+  return at;
+}
+
+/** `JsonWriter.decimal` into b at `at` (room for MAX_NUMBER bytes assumed); returns the new end. */
+function putDecimal(b: Uint8Array, at: number, v: number, e: number, p: number): number {
+  if (v === 0) {
+    b[at++] = 48; // "0", also for -0
+    return at;
+  }
+  if (!Number.isFinite(v)) return putAscii(b, at, NOT_FINITE);
+  const a = v < 0 ? -v : v;
+  if (e >= 0) {
+    if (a >= 2 ** 52) return putAscii(b, at, String(v));
+    if (v < 0) b[at++] = 45;
+    return putInteger(b, at, a);
+  }
+  if (e < -15 || a < 1e-6) return putAscii(b, at, String(v));
+  const m = Math.round(a * p);
+  // below 2^50 the spacing 10^e of such decimals exceeds twice the double spacing at v, so the
+  // shortest round-trip digits are the mantissa's; above, leave it to String
+  if (m >= 2 ** 50) return putAscii(b, at, String(v));
+  // digits of m, least significant first
+  const d = digitWork;
+  let n = 0;
+  if (m < 2147483648) {
+    let t = m | 0;
+    while (t > 0) {
+      const q = (t / 10) | 0;
+      d[n++] = t - 10 * q;
+      t = q;
+    }
+  } else {
     let t = m;
-    do {
+    while (t > 0) {
       const q = Math.floor(t / 10);
       d[n++] = t - 10 * q;
       t = q;
-    } while (t > 0);
-    this.room(n);
-    const b = this.buf;
-    let at = this.at;
-    for (let i = n - 1; i >= 0; i--) b[at++] = 48 + d[i];
-    this.at = at;
+    }
   }
+  const frac = -e; // digits after the point
+  let low = 0; // trailing zeros of the fraction are not written
+  while (low < frac && low < n && d[low] === 0) low++;
+  if (v < 0) b[at++] = 45;
+  if (n <= frac) {
+    b[at++] = 48;
+    b[at++] = 46;
+    for (let i = frac; i > n; i--) b[at++] = 48;
+    for (let i = n - 1; i >= low; i--) b[at++] = 48 + d[i];
+  } else {
+    for (let i = n - 1; i >= frac; i--) b[at++] = 48 + d[i];
+    if (low < frac) {
+      b[at++] = 46;
+      for (let i = frac - 1; i >= low; i--) b[at++] = 48 + d[i];
+    }
+  }
+  return at;
 }
 
 /** The UTF-8 bytes of a JSON string literal (quotes and escapes as `JSON.stringify` writes them). */

@@ -399,16 +399,9 @@ export function writeChartsJson(jw: JsonWriter, c: CornerData, correlation: numb
         jw.ascii(',"paths":[');
         for (let p = c.levelPaths[slot++], pi = 0; pi < p; pi++) {
           if (pi) jw.byte(44);
-          jw.byte(91);
-          for (let q = c.pathPoints[path++], qi = 0; qi < q; qi++, point++) {
-            if (qi) jw.byte(44);
-            jw.byte(91);
-            value(jw, c.xy[2 * point], ex, px);
-            jw.byte(44);
-            value(jw, c.xy[2 * point + 1], ey, py);
-            jw.byte(93);
-          }
-          jw.byte(93);
+          const count = c.pathPoints[path++];
+          jw.points(c.xy, point, count, ex, px, ey, py);
+          point += count;
         }
         jw.ascii(']}');
       }
