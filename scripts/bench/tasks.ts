@@ -4,15 +4,21 @@
  */
 import { mkdtemp, readdir, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
-import { join } from 'node:path';
+import { join, sep } from 'node:path';
+import { performance as nodePerformance } from 'node:perf_hooks';
 import { loadBundle } from '../../src/lib/bundle/load.ts';
 import { ProblemSink } from '../../src/lib/bundle/coerce.ts';
 import { readTableBatches } from '../../src/lib/io/read.ts';
 import { summariseAll } from '../../src/lib/pipeline/summarise.ts';
-import { groupedBatches, sampleLayout } from '../../src/lib/pipeline/summarise-stream.ts';
-import { summariseBatch, kernelContext, chartsFor, MULTIMODAL_OPTS } from '../../src/lib/pipeline/summarise-kernel.ts';
+import { flatten, groupedBatches, IPC_BLOCK_ROWS, sampleLayout } from '../../src/lib/pipeline/summarise-stream.ts';
+import { summariseBatch, kernelContext, MULTIMODAL_OPTS } from '../../src/lib/pipeline/summarise-kernel.ts';
+import { cornerData, writeChartsJson } from '../../src/lib/pipeline/summarise-charts.ts';
+import { JsonWriter } from '../../src/lib/pipeline/json-writer.ts';
+import { ChartSpool } from '../../src/lib/pipeline/chart-spool.ts';
+import { IpcFile } from '../../src/lib/io/arrow-ipc.ts';
 import { normaliseWeights, kishEss } from '../../src/lib/core/stats/weights.ts';
-import { summarise, weightedCovariance } from '../../src/lib/core/stats/summary.ts';
+import { sortDraws, summariseSorted, weightedCovariance, type SortedDraws } from '../../src/lib/core/stats/summary.ts';
+import { sampleMoments } from '../../src/lib/core/stats/density.ts';
 import { isMultimodal, priorEdgeMass } from '../../src/lib/core/stats/diagnostics.ts';
 import { makeRng } from '../../src/lib/core/random.ts';
 import { ensureBundle } from './data.ts';
@@ -43,6 +49,62 @@ async function scan(dir: string) {
   return { seconds: now() - t0, rows, checksum: acc, columns: L.columns.length };
 }
 
+/**
+ * The read floor: the Arrow IPC file read in large blocks (the summaries' block of 131072 rows,
+ * one read per column buffer) straight into fresh memory, the record batches located from the
+ * footer and typed arrays laid over their buffers (`IpcFile`, the reader the summaries use),
+ * then every value the summaries read summed once (four running sums, so the additions
+ * overlap) and neighbouring ids compared by their bytes (no string decoded): what any summary
+ * of this file must at least do, on one thread.
+ */
+async function floorTask(dir: string) {
+  const b = await loadBundle(dir, { samples: false });
+  const L = await sampleLayout(b);
+  const t0 = now();
+  const ipc = await IpcFile.open(L.path, L.columns);
+  if (!ipc) throw new Error(`${L.path}: not an Arrow IPC file the zero-copy reader takes`);
+  const fields = L.columns.map((c) => ipc.field(c));
+  let rows = 0, runs = 0, acc = 0, bytes = 0;
+  for (let bi = 0; bi < ipc.batchCount; bi++) {
+    const R = ipc.batchRows(bi);
+    for (let a = 0; a < R; a += IPC_BLOCK_ROWS) {
+      const block = await ipc.read(bi, a, Math.min(R, a + IPC_BLOCK_ROWS), fields);
+      const n = block.rows;
+      for (const buf of block.buffers) bytes += buf.byteLength;
+      for (const c of block.columns) {
+        if (c.kind === 'utf8') {
+          // a new run wherever an id's bytes differ from the previous row's
+          const { offsets: off, data } = c;
+          const base = off[0];
+          runs++;
+          for (let r = 1; r < n; r++) {
+            const p = off[r - 1] - base, q = off[r] - base, len = off[r + 1] - base - q;
+            let same = q - p === len;
+            for (let i = 0; same && i < len; i++) same = data[p + i] === data[q + i];
+            if (!same) runs++;
+          }
+        } else if (c.kind === 'float32' || c.kind === 'float64') {
+          const v = c.values;
+          let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+          let i = 0;
+          for (; i + 3 < n; i += 4) {
+            s0 += v[i];
+            s1 += v[i + 1];
+            s2 += v[i + 2];
+            s3 += v[i + 3];
+          }
+          for (; i < n; i++) s0 += v[i];
+          acc += s0 + s1 + s2 + s3;
+        }
+      }
+      rows += n;
+    }
+  }
+  await ipc.close();
+  // (log priors may be -Infinity: the checksum is then not finite)
+  return { seconds: now() - t0, rows, runs, checksum: Number.isFinite(acc) ? acc : String(acc), bytes, columns: L.columns.length, blockRows: IPC_BLOCK_ROWS };
+}
+
 /** Decode, type and group into objects without any statistics (the streaming overhead over the floor). */
 async function group(dir: string) {
   const b = await loadBundle(dir, { samples: false });
@@ -53,52 +115,101 @@ async function group(dir: string) {
   return { seconds: now() - t0, objects };
 }
 
-async function summariseTask(dir: string, workers: string) {
+async function summariseTask(dir: string, workers: string, charts = 'no') {
   const t0 = now();
   const b = await loadBundle(dir, { samples: false });
   const load = now() - t0;
+  const spoolDir = charts === 'charts' ? await mkdtemp(join(tmpdir(), 'posterity-bench-spool-')) : null;
+  const spool = spoolDir ? new ChartSpool(join(spoolDir, 'spool'), b.objects.n) : null;
+  let chartBytes = 0;
   const t1 = now();
+  const cpu0 = process.cpuUsage();
+  const elu0 = nodePerformance.eventLoopUtilization();
   let mode = '';
-  const r = await summariseAll(b, { seed: b.config.seed, workers: Number(workers), onStream: (s) => (mode = s.mode) });
+  const r = await summariseAll(b, {
+    seed: b.config.seed,
+    workers: Number(workers),
+    onStream: (s) => (mode = s.mode),
+    ...(spool ? { onChartsJson: (i: number, json: Uint8Array) => { chartBytes += json.length; spool.set(i, json); } } : {}),
+  });
   const seconds = now() - t1;
+  // CPU of every thread of this process (main and workers), and how busy the main thread was
+  const cpu = process.cpuUsage(cpu0);
+  const mainBusy = nodePerformance.eventLoopUtilization(elu0).utilization;
+  spool?.close();
+  if (spoolDir) await rm(spoolDir, { recursive: true, force: true });
   let flagged = 0;
   for (const f of r.table.flags) if (f) flagged++;
-  return { seconds, loadSeconds: load, mode, objects: r.table.n, flagged, workers: Number(workers) };
+  return { seconds, cpuSeconds: (cpu.user + cpu.system) / 1e6, mainBusy, loadSeconds: load, mode, objects: r.table.n, flagged, workers: Number(workers), charts: charts === 'charts', chartBytesPerObject: chartBytes / r.table.n };
 }
 
-/** Where the per-object time goes: each step of the kernel timed alone over the first objects. */
+/** Thread CPU seconds (this task runs the kernel on its main thread only). */
+const cpuNow = () => {
+  const u = process.cpuUsage();
+  return (u.user + u.system) / 1e6;
+};
+
+/**
+ * Where the per-object time goes: each step of the kernel timed alone over the first objects,
+ * on one thread, as the kernel runs it (each parameter sorted once, the sort shared by the
+ * summary, the density moments and the mode test), best of three rounds; then the whole kernel
+ * without and with corner data, and the corner data alone (densities, contours and its JSON
+ * text). Times are CPU time of the thread, which other work on a shared machine disturbs less
+ * than the wall clock.
+ */
 async function kernel(dir: string, count: string) {
   const b = await loadBundle(dir, { samples: false });
   const L = await sampleLayout(b);
   const want = Number(count);
-  const objs: { xs: Float64Array[]; w: Float64Array; id: string }[] = [];
+  const objs: { xs: Float64Array[]; w: Float64Array; raw: Float64Array; id: string }[] = [];
   for await (const batch of groupedBatches(b, L, { sink: new ProblemSink(), seen: new Uint8Array(b.objects.n), batchRows: 4096 })) {
-    for (let o = 0; o < batch.index.length && objs.length < want; o++) {
-      const a = batch.offsets[o], e = batch.offsets[o + 1];
-      objs.push({ xs: batch.params.map((p) => p.slice(a, e)), w: batch.weight.slice(a, e), id: batch.ids[o] });
+    const f = flatten(batch);
+    for (let o = 0; o < f.index.length && objs.length < want; o++) {
+      const a = f.offsets[o], e = f.offsets[o + 1];
+      const raw = f.weight.slice(a, e);
+      objs.push({ xs: f.params.map((p) => p.slice(a, e)), raw, w: normaliseWeights({ weights: raw }, f.ids[o]), id: f.ids[o] });
     }
     if (objs.length >= want) break;
   }
   const q = b.config.quality;
   const priors = b.config.parameters.map((p) => (p.prior?.kind === 'uniform' ? { min: p.prior.min, max: p.prior.max } : null));
+  const k = b.config.parameters.length;
   const ms: Record<string, number> = {};
-  const time = (name: string, f: (o: (typeof objs)[number], w: Float64Array) => void, n = objs.length) => {
-    const t0 = now();
-    for (let i = 0; i < n; i++) f(objs[i], ws[i]);
-    ms[name] = ((now() - t0) * 1000) / n;
+  const time = (name: string, f: (i: number) => void, n = objs.length) => {
+    for (let i = 0; i < Math.min(n, 20); i++) f(i); // warm up
+    let best = Infinity;
+    for (let rep = 0; rep < 3; rep++) {
+      const t0 = cpuNow();
+      for (let i = 0; i < n; i++) f(i);
+      best = Math.min(best, ((cpuNow() - t0) * 1000) / n);
+    }
+    ms[name] = best;
   };
-  const ws = objs.map((o) => normaliseWeights({ weights: o.w }, o.id));
-  time('normalise weights + Kish ESS', (o) => kishEss(normaliseWeights({ weights: o.w }, o.id)));
-  time('summarise (mean, std, quantiles, HDI) x k', (o, w) => o.xs.forEach((x) => summarise(x, w)));
-  time('multimodality (weighted KDE) x k', (o, w) => o.xs.forEach((x) => isMultimodal(x, w, MULTIMODAL_OPTS(q.multimodalMinMass))));
-  time('prior-edge mass x k', (o, w) => o.xs.forEach((x, j) => priors[j] && priorEdgeMass(x, w, priors[j]!, q.priorEdgeWidth)));
-  time('weighted covariance', (o, w) => weightedCovariance(o.xs, w));
+  // each object's parameters sorted once, as the kernel does, for the steps that share the sort
+  const sorted: SortedDraws[][] = objs.map((o) => o.xs.map((x) => { const s = sortDraws(x, o.w); return { ...s, x: s.x.slice(0, s.n), w: s.w.slice(0, s.n) }; }));
+  const moments = objs.map((o, i) => o.xs.map((x, j) => sampleMoments(x, o.w, sorted[i][j])));
+  const work: SortedDraws = { x: new Float64Array(4096), w: new Float64Array(4096), n: 0, total: 0 };
+  time('normalise weights + Kish ESS', (i) => kishEss(normaliseWeights({ weights: objs[i].raw }, objs[i].id)));
+  time('sort x k', (i) => objs[i].xs.forEach((x) => sortDraws(x, objs[i].w, work)));
+  time('mean, std, quantiles, HDI from the sort x k', (i) => sorted[i].forEach((s) => summariseSorted(s)));
+  time('multimodality (binned KDE, shared sort) x k', (i) => objs[i].xs.forEach((x, j) => isMultimodal(x, objs[i].w, { ...MULTIMODAL_OPTS(q.multimodalMinMass), moments: moments[i][j] })));
+  time('prior-edge mass x k', (i) => objs[i].xs.forEach((x, j) => priors[j] && priorEdgeMass(x, objs[i].w, priors[j]!, q.priorEdgeWidth)));
+  time('weighted covariance', (i) => weightedCovariance(objs[i].xs, objs[i].w));
   const ctx = kernelContext(b.config, { seed: 1, m: 64, logWeights: L.logWeights, charts: false });
-  time('whole kernel, no corner data', (o) => summariseBatch(ctx, { index: Int32Array.of(0), ids: [o.id], offsets: Int32Array.of(0, o.w.length), params: o.xs, weight: o.w, logPrior: null, chain: null }));
-  const nc = Math.min(objs.length, 100);
+  const one = (o: (typeof objs)[number]) => ({ index: Int32Array.of(0), ids: [o.id], parts: [{ params: o.xs, weight: o.raw, logPrior: null, chain: null }], part: Int32Array.of(0), start: Int32Array.of(0), end: Int32Array.of(o.raw.length), firstRow: null });
+  time('whole kernel, no corner data', (i) => summariseBatch(ctx, one(objs[i])));
+  const withCharts = kernelContext(b.config, { seed: 1, m: 64, logWeights: L.logWeights, charts: true });
   let bytes = 0;
-  time('corner data (1-D and 2-D densities, contours)', (o, w) => (bytes += JSON.stringify(chartsFor(ctx.names, o.xs, w, makeRng(1).nextUint32())).length), nc);
-  return { objects: objs.length, msPerObject: ms, chartJsonBytesPerObject: bytes / nc };
+  time('whole kernel with corner data (JSON text)', (i) => (bytes = summariseBatch(withCharts, one(objs[i])).chartJson!.length));
+  const jw = new JsonWriter();
+  const names = b.config.parameters.map((p) => p.name);
+  time('corner data alone (1-D and 2-D densities, contours, JSON text)', (i) => {
+    jw.reset();
+    writeChartsJson(jw, cornerData(names, objs[i].xs, objs[i].w, makeRng(i).nextUint32(), moments[i]), null);
+  });
+  // the corner data's share of the kernel, the kernel's way (draws in SIMD memory)
+  ms['corner data (kernel with it - without)'] = ms['whole kernel with corner data (JSON text)'] - ms['whole kernel, no corner data'];
+  return { objects: objs.length, params: k, draws: objs[0]?.w.length ?? 0, msPerObject: ms, chartJsonBytesPerObject: bytes, timer: 'thread CPU' };
 }
 
 /** Synthetic relation data: y = a + b (x - 10) + N(0, s), measured with correlated Gaussian errors. */
@@ -180,7 +291,16 @@ async function duckdb(dir: string) {
   const seconds = now() - t0;
   const count = (await con.runAndReadAll('SELECT count(*) AS n FROM r')).getRowObjects()[0].n;
   const threads = (await con.runAndReadAll("SELECT current_setting('threads') AS t")).getRowObjects()[0].t;
-  return { seconds, objects: Number(count), threads: Number(threads) };
+  // can this DuckDB read the Arrow IPC file too, with what it has (no extension downloads)?
+  let arrowIpc = 'readable';
+  const arrowPath = L.path.replace(/\.parquet$/, '.arrow').replace(`${sep}summ-parquet${sep}`, `${sep}summ-arrow${sep}`);
+  const offline = await (await DuckDBInstance.create(':memory:', { autoinstall_known_extensions: 'false', autoload_known_extensions: 'false' })).connect();
+  try {
+    await offline.run(`SELECT count(*) FROM '${arrowPath.replace(/'/g, "''")}'`);
+  } catch (e) {
+    arrowIpc = `not readable: ${(e as Error).message.split('\n')[0]}`;
+  }
+  return { seconds, objects: Number(count), threads: Number(threads), arrowIpc };
 }
 
 /** The whole pipeline (samples loaded by the loader, as `runPipeline` does), then figures for a few objects. */
@@ -299,8 +419,9 @@ export async function runTask(name: string, args: string[]): Promise<Record<stri
   switch (name) {
     case 'gen': return gen(args[0], args[1]);
     case 'scan': return scan(args[0]);
+    case 'floor': return floorTask(args[0]);
     case 'group': return group(args[0]);
-    case 'summarise': return summariseTask(args[0], args[1]);
+    case 'summarise': return summariseTask(args[0], args[1], args[2]);
     case 'kernel': return kernel(args[0], args[1]);
     case 'deconvolved': return deconvolved(args[0]);
     case 'hierarchical': return hierarchical(args[0], args[1], args[2]);

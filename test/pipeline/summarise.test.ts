@@ -13,7 +13,8 @@ import { generateDemoBundle } from '../../scripts/demo/generate.ts';
 import { loadBundle, type Bundle } from '../../src/lib/bundle/load.ts';
 import { PosterityError } from '../../src/lib/core/problems.ts';
 import { readTable } from '../../src/lib/io/read.ts';
-import { writeArrow } from '../../src/lib/io/arrow.ts';
+import * as arrow from 'apache-arrow';
+import { toArrowTable, writeArrow } from '../../src/lib/io/arrow.ts';
 import type { Table } from '../../src/lib/io/table.ts';
 import { summariseAll, type StreamInfo } from '../../src/lib/pipeline/summarise.ts';
 import { fnv1a32, mergePartials, summaryMeta, summarisePartition, writeMerged } from '../../src/lib/pipeline/summarise-partition.ts';
@@ -136,6 +137,54 @@ describe('summariseAll', () => {
       expect(r.pop).toStrictEqual(expected.pop);
       expect(c.byIndex).toStrictEqual(c0.byIndex);
     }
+  });
+
+  it('reads Arrow IPC zero-copy across record batches and blocks that cut objects, for one worker and two', async () => {
+    // record batches of 997 rows and blocks of 300: many objects start in one and end in the next
+    const out = join(root, 'batched');
+    await cp(dir, out, { recursive: true });
+    const t = toArrowTable(await readTable(join(dir, 'samples.arrow')));
+    const parts: arrow.RecordBatch[] = [];
+    for (let a = 0; a < t.numRows; a += 997) parts.push(...t.slice(a, Math.min(t.numRows, a + 997)).batches);
+    await writeFile(join(out, 'samples.arrow'), arrow.tableToIPC(new arrow.Table(parts), 'file'));
+    const b = await loadBundle(out, { samples: false });
+    for (const workers of [1, 2]) {
+      const c = collector();
+      let info: StreamInfo | undefined;
+      const r = await summariseAll(b, { seed: SEED, onCharts: c.on, workers, batchRows: 300, onStream: (s) => (info = s) });
+      expect(info?.mode).toBe('grouped');
+      expect(r.table).toStrictEqual(ref.table);
+      expect(r.pop).toStrictEqual(ref.pop);
+      expect(c.byIndex).toStrictEqual(refCharts);
+    }
+  });
+
+  it('reports every kind of bad row of a zero-copy Arrow read with file, row and column, as the loader words them', async () => {
+    const broken = await variant('broken-many', (t) => {
+      const col = (name: string) => t.columns.find((c) => c.name === name)!.values as Float64Array | Float32Array | string[];
+      const ids = col('id') as string[];
+      const first = ids[0];
+      const second = ids.findIndex((v) => v !== first);
+      const third = ids.findIndex((v, i) => i > second && v !== ids[second]);
+      (col('log_mstar') as Float32Array)[3] = NaN; // row 4 (the first object)
+      for (let r = second; r < third; r++) (col('w_imp') as Float64Array)[r] = 0; // the second object: every weight zero
+      ids[ids.length - 1] = 'no-such-galaxy'; // the last row: an unknown id (at the end, so the rows stay grouped)
+      return t;
+    });
+    const b = await loadBundle(broken, { samples: false });
+    const err = await summariseAll(b, { seed: SEED, workers: 2, batchRows: 200 }).catch((e) => e);
+    expect(err).toBeInstanceOf(PosterityError);
+    const ps = (err as PosterityError).problems;
+    const ids = (await readTable(join(broken, 'samples.arrow'))).columns.find((c) => c.name === 'id')!.values as string[];
+    const second = ids.findIndex((v) => v !== ids[0]);
+    expect(ps).toHaveLength(3);
+    expect(ps).toEqual(
+      expect.arrayContaining([
+        expect.objectContaining({ file: 'samples.arrow', row: 4, column: 'log_mstar', message: 'value of log_mstar is missing or NaN' }),
+        expect.objectContaining({ file: 'samples.arrow', row: second + 1, column: 'w_imp', object: ids[second], message: 'every draw of this object has zero weight' }),
+        expect.objectContaining({ file: 'samples.arrow', row: ids.length, column: 'id', message: 'id not in the objects table', got: '"no-such-galaxy"' }),
+      ]),
+    );
   });
 
   it('reports bad draws with file, row and column when streaming', async () => {

@@ -3,7 +3,6 @@
  * return plain data: load, summarise, population, evidence, then write.
  */
 import { mkdir, writeFile } from 'node:fs/promises';
-import { existsSync, mkdirSync, readFileSync, rmSync, unlinkSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { gzipSync } from 'node:zlib';
 import { loadBundle, type Bundle } from '../bundle/load.ts';
@@ -11,7 +10,8 @@ import { makeCosmology } from '../core/cosmology.ts';
 import { FLAG_INFO } from '../core/flags.ts';
 import { slugOf } from '../core/slug.ts';
 import { formatProblem, PosterityError, type Problem } from '../core/problems.ts';
-import { summariseAll, type ObjectCharts } from './summarise.ts';
+import { summariseAll } from './summarise.ts';
+import { ChartSpool } from './chart-spool.ts';
 import { runPopulation, roleIndex } from './population.ts';
 import { buildCatalogue } from './catalogue.ts';
 import { objectContent, objectIndexEntries, nearestNeighbours } from './objects.ts';
@@ -88,12 +88,12 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
   const summariesFrom: PipelineResult['summaries'] = opts.summaries ? 'given' : cached ? 'reused' : 'computed';
   const { table: summary, pop } = opts.summaries ? await givenSummaries(bundle, opts.summaries, charts) : cached ? cached : await summariseAll(bundle, {
     seed: config.seed,
-    onCharts: (i, c) => {
-      charts.set(i, c);
+    onChartsJson: (i, json) => {
+      charts.set(i, json);
       if (i % 200 === 0) progress('summarise', i, n);
     },
   });
-  if (cacheKey && !cached) await writeCachedSummary(opts.summaryCache!, cacheKey, bundle, summary, pop, (i) => charts.file(i));
+  if (cacheKey && !cached) await writeCachedSummary(opts.summaryCache!, cacheKey, bundle, summary, pop, charts.source(Int32Array.from({ length: n }, (_, i) => i)));
   progress('summarise', n, n);
 
   const popResult = runPopulation({ config, objects, summary, pop, cosmo, truth: opts.truth });
@@ -324,36 +324,6 @@ async function givenSummaries(bundle: Bundle, given: NonNullable<PipelineOptions
   if (problems.length) throw new PosterityError(problems);
   given.merged.charts?.forEach((c, i) => c && charts.set(i, c));
   return given.merged;
-}
-
-/** Corner data of each object, held in a spool folder between summarising and page writing. */
-class ChartSpool {
-  constructor(
-    private readonly dir: string,
-    n: number,
-  ) {
-    rmSync(dir, { recursive: true, force: true });
-    mkdirSync(dir, { recursive: true });
-    void n;
-  }
-  set(i: number, c: ObjectCharts): void {
-    writeFileSync(join(this.dir, `${i}.json`), JSON.stringify(c));
-  }
-  /** The spool file of object i, or null when it has no corner data. */
-  file(i: number): string | null {
-    const f = join(this.dir, `${i}.json`);
-    return existsSync(f) ? f : null;
-  }
-  take(i: number): ObjectCharts | null {
-    const f = join(this.dir, `${i}.json`);
-    if (!existsSync(f)) return null;
-    const c = JSON.parse(readFileSync(f, 'utf8')) as ObjectCharts;
-    unlinkSync(f);
-    return c;
-  }
-  close(): void {
-    rmSync(this.dir, { recursive: true, force: true });
-  }
 }
 
 /** Shard file name of a shard number: zero-padded so names sort in catalogue order. */

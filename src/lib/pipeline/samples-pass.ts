@@ -18,8 +18,7 @@ import { ProblemSink } from '../bundle/coerce.ts';
 import { COVERAGE_LEVELS, coverage, pit, type CoverageResult } from '../core/population/calibration.ts';
 import { ParquetStreamWriter } from '../io/parquet.ts';
 import type { Column } from '../io/table.ts';
-import type { ObjectBatch } from './summarise-kernel.ts';
-import { groupedBatches, NotGrouped, sampleLayout, spilledBatches, type SampleLayout } from './summarise-stream.ts';
+import { flatten, groupedBatches, NotGrouped, sampleLayout, spilledBatches, type FlatBatch, type SampleLayout } from './summarise-stream.ts';
 
 /** Per parameter with true values: coverage of central intervals and each object's PIT. */
 export type CalibrationStats = Map<string, { coverage: CoverageResult[]; pit: Float64Array }>;
@@ -58,7 +57,7 @@ export function calibrationFromSamples(bundle: Bundle): CalibrationStats {
  * computes them, so both give bit-identical calibration) and the same normalised to sum to 1
  * per object (for the download).
  */
-function batchWeights(b: ObjectBatch, logWeights: boolean): { linear: Float64Array; normalised: Float64Array } {
+function batchWeights(b: FlatBatch, logWeights: boolean): { linear: Float64Array; normalised: Float64Array } {
   const linear = new Float64Array(b.weight.length);
   const normalised = new Float64Array(b.weight.length);
   for (let o = 0; o + 1 < b.offsets.length; o++) {
@@ -73,7 +72,7 @@ function batchWeights(b: ObjectBatch, logWeights: boolean): { linear: Float64Arr
 }
 
 interface PassSink {
-  add(b: ObjectBatch): Promise<void>;
+  add(b: FlatBatch): Promise<void>;
   finish(): Promise<void>;
   abort(): Promise<void>;
 }
@@ -133,12 +132,12 @@ export async function streamSampleProducts(bundle: Bundle, opts: SamplesPassOpti
   let sink = makeSink();
   try {
     try {
-      for await (const b of groupedBatches(bundle, L, base)) await sink.add(b);
+      for await (const b of groupedBatches(bundle, L, base)) await sink.add(flatten(b));
     } catch (e) {
       if (!(e instanceof NotGrouped)) throw e;
       await sink.abort();
       sink = makeSink();
-      for await (const b of spilledBatches(bundle, L, { ...base, sink: new ProblemSink(), seen: new Uint8Array(n) })) await sink.add(b);
+      for await (const b of spilledBatches(bundle, L, { ...base, sink: new ProblemSink(), seen: new Uint8Array(n) })) await sink.add(flatten(b));
     }
     await sink.finish();
   } catch (e) {

@@ -1,26 +1,35 @@
 /**
  * The per-object step of the summaries, shared by every way of running them (in this thread,
- * in worker threads, one partition of the catalogue): a batch of whole objects' draws in flat
- * typed arrays goes in, flat typed arrays of results come out. Nothing here depends on which
- * other objects are in the batch or on the order of batches: every random step is seeded by
- * the release seed and the object id.
+ * in worker threads, one partition of the catalogue): a batch of whole objects' draws in typed
+ * arrays goes in (views over the samples file's own float32 or float64 columns when read from
+ * Arrow IPC), flat typed arrays of results come out, with each object's corner data as JSON
+ * text. Nothing here depends on which other objects are in the batch or on the order of
+ * batches: every random step is seeded by the release seed and the object id.
+ *
+ * Per object, in as few passes over the draws as the definitions allow, with the draws held in
+ * the SIMD memory (simd.ts) so that every WebAssembly loop works on them in place: the weights
+ * are normalised once; the means, the covariance matrix and from its diagonal the standard
+ * deviations (in the draws' own order) come from one set of weighted cross products
+ * (`weightedCovariance`); each parameter is sorted once (`sortDrawsAt`), and one call on that
+ * sort gives the published mean and standard deviation (sums in sorted order, as published
+ * before), all percentiles and the quartiles in one walk, both HDIs and the Kish ESS the
+ * histogram and KDE rules use (`summarySortedAt`); the mode test's KDE is binned and convolved
+ * in WebAssembly (`kdeUniform`). The results are the bits of the scalar definitions.
  */
-import { normaliseWeights, kishEss } from '../core/stats/weights.ts';
-import { weightedCovariance, correlationFromCovariance, autocorrEss, sortDraws, summariseSorted, type ParamSummary, type SortedDraws } from '../core/stats/summary.ts';
-import { histogram, kde, kdeBandwidth, density2d, creditLevels, contourPaths, simplifyPath, sampleMoments, type SampleMoments } from '../core/stats/density.ts';
+import { normaliseWeightsInto, kishEss } from '../core/stats/weights.ts';
+import { correlationFromCovariance, autocorrEss, weightedCovariance, sortDraws, quantilesSorted, hdiSorted, meanStdSorted, SUMMARY_PROBS, type SortedDraws } from '../core/stats/summary.ts';
+import { kdeScratchSlots, type SampleMoments } from '../core/stats/density.ts';
+import { alloc, memory, release, reserve, sortDrawsAt, summarySortedAt } from '../core/stats/simd.ts';
+import { CORNER_SCRATCH_SLOTS } from './summarise-charts.ts';
 import { isMultimodal, priorEdgeMass } from '../core/stats/diagnostics.ts';
 import { FLAGS } from '../core/flags.ts';
+import type { Problem } from '../core/problems.ts';
 import { makeRng, deriveSeed } from '../core/random.ts';
 import type { ReleaseConfig } from '../bundle/schema.ts';
-import type { Contour2d, Marginal } from './content.ts';
+import { cornerData, writeChartsJson, round } from './summarise-charts.ts';
+import { JsonWriter } from './json-writer.ts';
 
-export interface ObjectCharts {
-  marginals: Marginal[];
-  contours: Contour2d[];
-  correlation: number[][] | null;
-}
-
-export const MASS_LEVELS = [0.68, 0.95] as const;
+export { chartsFor, MASS_LEVELS, SCATTER_POINTS, round, type ObjectCharts } from './summarise-charts.ts';
 
 /**
  * Multimodality rule: a weighted Gaussian KDE at Silverman's bandwidth; a secondary peak
@@ -28,6 +37,16 @@ export const MASS_LEVELS = [0.68, 0.95] as const;
  * it and its neighbour is below half the lower peak's height.
  */
 export const MULTIMODAL_OPTS = (minMass: number) => ({ minMass, bandwidthFactor: 1, maxValleyRatio: 0.5 });
+
+/** The samples file's column names, for the row checks' messages. */
+export interface RowCheckNames {
+  file: string;
+  weight: string;
+  params: string[];
+  /** Our parameter names. */
+  paramNames: string[];
+  logPrior: string | null;
+}
 
 /** What the per-object step needs from the release (plain data, so it can cross to a worker). */
 export interface KernelContext {
@@ -42,9 +61,11 @@ export interface KernelContext {
   logWeights: boolean;
   /** Compute the corner-plot data. */
   charts: boolean;
+  /** Column names for the row checks of batches that ask for them (`ObjectBatch.firstRow`). */
+  check?: RowCheckNames | null;
 }
 
-export function kernelContext(config: ReleaseConfig, opts: { seed: number; m: number; logWeights: boolean; charts: boolean }): KernelContext {
+export function kernelContext(config: ReleaseConfig, opts: { seed: number; m: number; logWeights: boolean; charts: boolean; check?: RowCheckNames | null }): KernelContext {
   const q = config.quality;
   return {
     names: config.parameters.map((p) => p.name),
@@ -54,18 +75,35 @@ export function kernelContext(config: ReleaseConfig, opts: { seed: number; m: nu
   };
 }
 
-/** Whole objects' draws: object o owns rows [offsets[o], offsets[o+1]) of every array. */
+type Floats = Float64Array | Float32Array;
+
+/** Columns of draws: one array per parameter, the weights (or log weights), the log prior and chain. */
+export interface ColumnSet {
+  params: Floats[];
+  weight: Floats;
+  logPrior: Floats | null;
+  chain: Int32Array | null;
+}
+
+/**
+ * Whole objects' draws: object o owns rows [start[o], end[o]) of the columns `parts[part[o]]`
+ * (several objects share a part; a part may be a view over a block of the samples file, with
+ * rows of other objects between).
+ */
 export interface ObjectBatch {
   /** Catalogue index of each object. */
   index: Int32Array;
   ids: string[];
-  offsets: Int32Array;
-  /** One array per parameter. */
-  params: Float64Array[];
-  /** Weights, or natural-log weights (see `KernelContext.logWeights`). */
-  weight: Float64Array;
-  logPrior: Float64Array | null;
-  chain: Int32Array | null;
+  parts: ColumnSet[];
+  part: Int32Array;
+  start: Int32Array;
+  end: Int32Array;
+  /**
+   * With it, the kernel checks every row as the loader does (weights, finite values, log prior,
+   * an object whose every weight is zero), reporting each bad row by file row: the row of
+   * object o's first draw is firstRow[o] (1-based). Objects with bad rows are not summarised.
+   */
+  firstRow: Float64Array | null;
 }
 
 /** Per object and parameter, in this order (`STAT_FIELDS` values each). */
@@ -74,6 +112,8 @@ export const STAT_FIELDS = STAT_NAMES.length;
 
 export interface BatchResult {
   index: Int32Array;
+  /** 1 when the object was summarised (0: bad rows, reported in `problems`). */
+  valid: Uint8Array;
   /** [object][param][STAT_NAMES] */
   stats: Float64Array;
   /** [object][param] */
@@ -90,172 +130,158 @@ export interface BatchResult {
   popValues: Float64Array;
   /** [object][m]; NaN without a log prior. */
   popLogPrior: Float64Array;
-  charts: ObjectCharts[] | null;
+  /** Corner data as JSON text, object o at bytes [chartEnds[o - 1] (0 for o = 0), chartEnds[o]); empty when not summarised. */
+  chartJson: Uint8Array | null;
+  chartEnds: Int32Array | null;
+  /** Bad rows found by the row checks, in file order. */
+  problems: Problem[];
 }
 
 /** Buffers of a result (for `postMessage` transfer lists). */
 export function resultBuffers(r: BatchResult): ArrayBuffer[] {
-  return [r.index, r.stats, r.multimodal, r.cov, r.ess, r.essKind, r.nSamples, r.flags, r.popValues, r.popLogPrior].map((a) => a.buffer as ArrayBuffer);
+  const arrays = [r.index, r.valid, r.stats, r.multimodal, r.cov, r.ess, r.essKind, r.nSamples, r.flags, r.popValues, r.popLogPrior];
+  if (r.chartJson) arrays.push(r.chartJson);
+  if (r.chartEnds) arrays.push(r.chartEnds);
+  return [...new Set(arrays.map((a) => a.buffer as ArrayBuffer))];
 }
 
+/** Buffers of a batch (for `postMessage` transfer lists); views sharing a buffer give it once. */
 export function batchBuffers(b: ObjectBatch): ArrayBuffer[] {
-  const out = [b.index, b.offsets, b.weight, ...b.params].map((a) => a.buffer as ArrayBuffer);
-  if (b.logPrior) out.push(b.logPrior.buffer as ArrayBuffer);
-  if (b.chain) out.push(b.chain.buffer as ArrayBuffer);
-  return out;
-}
-
-export function round(v: number, digits = 5): number {
-  if (!Number.isFinite(v)) return v;
-  return Number(v.toPrecision(digits));
-}
-
-// ---- corner-plot data --------------------------------------------------------------------
-//
-// The corner plot (src/lib/charts/corner.ts) draws each panel 70 to 150 pixels wide over the
-// parameter's range plus 6% padding, so one pixel is at least 1/134 of a parameter's range
-// (`ranges` below: the extent of the draws, which the histogram spans). What we publish is
-// sized to that resolution rather than to double precision:
-// - coordinates are rounded to a decimal quantum of at most 1/500 of the range (the largest
-//   power of ten not above it), i.e. about three significant digits relative to the plotted
-//   range and at most a quarter of a pixel on the widest panel; densities likewise to at most
-//   1/500 of the panel's highest density;
-// - contour polylines are simplified by Douglas-Peucker with a tolerance of 1/300 of each
-//   axis's range (under half a pixel on the widest panel), which drops the many marching-
-//   squares points along nearly straight stretches;
-// - 50 scatter points per panel instead of 150: the corner plot shows at most `maxPoints`
-//   (default 50) of them, every ceil(n / 50)-th, so 150 points drew 50 anyway.
-// - the 2-D density is a binned 2-D Gaussian KDE (linear binning on 32 x 32 cells, then a
-//   separable Gaussian of the diagonal's 1-D Silverman bandwidth on each axis, at least one and
-//   at most six cells): a product-kernel KDE with the bandwidths of the KDE curves drawn on the
-//   diagonal, and smooth enough that the contours are not cell-scale noise (the 40 x 40
-//   histogram smoothed by one cell used before made ~190 mostly noisy paths per object, ~60
-//   now, about one per level and panel). 32 cells (2 to 5 pixels each) resolve a density
-//   smoothed over at least a cell, and cost about half of 40 (cells x kernel taps).
-// The 1-D KDEs are binned as well (density.ts).
-// The JSON schema (`Marginal`, `Contour2d`) is unchanged.
-
-/** Scatter points per 2-D panel: the corner plot's default `maxPoints`. */
-export const SCATTER_POINTS = 50;
-/** Quantum of published coordinates, as a fraction of the plotted range (at most). */
-const COORD_FRACTION = 1 / 500;
-/** Douglas-Peucker tolerance of contour paths, as a fraction of each axis's range. */
-const CONTOUR_TOLERANCE = 1 / 300;
-const CORNER_GRID = 32;
-/** Bounds of the 2-D smoothing in cells (our choice): at least the one cell used before, at most 6 (cost grows with it). */
-const MAX_SMOOTH_CELLS = 6;
-const KDE_POINTS = 64;
-
-/** A rounding function to the largest power of ten at most `span` x COORD_FRACTION (5 significant digits when the span is not usable). */
-function rounder(span: number): (v: number) => number {
-  if (!(span > 0) || !Number.isFinite(span)) return (v) => round(v);
-  const e = Math.floor(Math.log10(span * COORD_FRACTION));
-  if (e >= 0) {
-    const q = 10 ** e;
-    return (v) => (Number.isFinite(v) ? Math.round(v / q) * q : v);
+  const arrays: ArrayBufferView[] = [b.index, b.part, b.start, b.end];
+  if (b.firstRow) arrays.push(b.firstRow);
+  for (const p of b.parts) {
+    arrays.push(p.weight, ...p.params);
+    if (p.logPrior) arrays.push(p.logPrior);
+    if (p.chain) arrays.push(p.chain);
   }
-  const p = 10 ** -e;
-  // an integer divided by a power of ten is the double nearest to that decimal, so it prints as it
-  return (v) => (Number.isFinite(v) ? Math.round(v * p) / p : v);
+  return [...new Set(arrays.map((a) => a.buffer as ArrayBuffer))];
 }
 
-/** Round a path's points and drop repeats that rounding creates (a closed path stays closed). */
-function roundPath(path: Array<[number, number]>, rx: (v: number) => number, ry: (v: number) => number): Array<[number, number]> {
-  const out: Array<[number, number]> = [];
-  let lx = NaN;
-  let ly = NaN;
-  for (let i = 0; i < path.length; i++) {
-    const qx = rx(path[i][0]);
-    const qy = ry(path[i][1]);
-    if (qx === lx && qy === ly) continue;
-    out.push([qx, qy]);
-    lx = qx;
-    ly = qy;
-  }
-  return out;
-}
+// ---- the row checks (the loader's messages) ----------------------------------------------
 
 /**
- * Corner-plot data: 1-D histograms and KDEs, 2-D contours enclosing 68% and 95% of the mass,
- * at the resolution of the plot (see the notes above). `moments` (per parameter, from
- * `sampleMoments` of the same draws) saves sorting each parameter again.
+ * Checks rows [a, b) of `cs` as the loader checks them (weights, finite parameter values, log
+ * prior), with the same messages; `row0` is the 1-based file row of row a. Returns false when
+ * any row is bad.
  */
-export function chartsFor(names: string[], xs: Float64Array[], w: Float64Array, seed: number, moments?: SampleMoments[]): ObjectCharts {
-  const k = xs.length;
-  const marginals: Marginal[] = [];
-  const ranges: [number, number][] = [];
-  const rounders: ((v: number) => number)[] = [];
-  const smooth: number[] = [];
-  for (let j = 0; j < k; j++) {
-    const m = moments?.[j] ?? sampleMoments(xs[j], w);
-    const h = histogram(xs[j], w, { rule: 'fd', moments: m });
-    const lo = h.edges[0], hi = h.edges[h.edges.length - 1];
-    ranges.push([lo, hi]);
-    const rx = rounder(hi - lo);
-    rounders.push(rx);
-    const grid = new Float64Array(KDE_POINTS);
-    for (let g = 0; g < KDE_POINTS; g++) grid[g] = lo + ((hi - lo) * g) / (KDE_POINTS - 1);
-    const dens = kde(xs[j], w, grid, { bandwidth: kdeBandwidth(xs[j], w, 'silverman', m) });
-    let top = 0;
-    for (const v of h.density) if (v > top) top = v;
-    for (const v of dens.density) if (v > top) top = v;
-    const ry = rounder(top);
-    smooth.push(Math.min(MAX_SMOOTH_CELLS, Math.max(1, (dens.bandwidth * CORNER_GRID) / (hi - lo))) || 1);
-    marginals.push({
-      param: names[j],
-      edges: Array.from(h.edges, rx),
-      density: Array.from(h.density, ry),
-      kdeX: Array.from(grid, rx),
-      kdeY: Array.from(dens.density, ry),
-      rule: `${h.rule}; KDE bandwidth ${round(dens.bandwidth, 3)} (Silverman)`,
-    });
+export function checkRows(cs: ColumnSet, a: number, b: number, names: RowCheckNames, logWeights: boolean, row0: number, report: (p: Problem) => void): boolean {
+  let ok = true;
+  const bad = (column: string, r: number, message: string, expected: string, v: number) => {
+    ok = false;
+    report({ severity: 'error', file: names.file, row: row0 + r - a, column, message, expected, got: String(v) });
+  };
+  const wt = cs.weight;
+  for (let r = a; r < b; r++) {
+    const x = wt[r];
+    if (logWeights) {
+      if (Number.isNaN(x)) bad(names.weight, r, 'log_weight is missing or NaN', 'a finite number, or -inf for a zero weight', x);
+      else if (x === Infinity) bad(names.weight, r, 'log_weight is +infinity', 'a finite number, or -inf for a zero weight', x);
+    } else if (!(Number.isFinite(x) && x >= 0))
+      bad(names.weight, r, Number.isNaN(x) ? 'weight is missing or NaN' : !Number.isFinite(x) ? 'weight is infinite' : 'weight is negative', 'a finite weight >= 0', x);
   }
-  const contours: Contour2d[] = [];
-  // a light scatter of equal-weight points under the contours
-  const rng = makeRng(seed);
-  const cdf = new Float64Array(w.length);
-  let acc = 0;
-  for (let i = 0; i < w.length; i++) cdf[i] = acc += w[i];
-  const nPts = Math.min(SCATTER_POINTS, w.length);
-  const picks = new Int32Array(nPts);
-  for (let p = 0; p < nPts; p++) {
-    const u = rng.next() * acc;
-    let lo = 0, hi = w.length - 1;
-    while (lo < hi) {
-      const mid = (lo + hi) >> 1;
-      if (cdf[mid] < u) lo = mid + 1;
-      else hi = mid;
+  for (let j = 0; j < cs.params.length; j++) {
+    const x = cs.params[j];
+    for (let r = a; r < b; r++)
+      if (!Number.isFinite(x[r])) bad(names.params[j], r, Number.isNaN(x[r]) ? `value of ${names.paramNames[j]} is missing or NaN` : `value of ${names.paramNames[j]} is infinite`, 'a finite number', x[r]);
+  }
+  const lp = cs.logPrior;
+  if (lp && names.logPrior)
+    for (let r = a; r < b; r++) {
+      const x = lp[r];
+      if (Number.isNaN(x) || x === Infinity) bad(names.logPrior, r, Number.isNaN(x) ? 'log_prior is missing or NaN' : 'log_prior is +infinity', 'a finite log density (or -inf)', x);
     }
-    picks[p] = lo;
-  }
-  for (let a = 0; a < k; a++) {
-    const sa = ranges[a][1] - ranges[a][0];
-    for (let b = a + 1; b < k; b++) {
-      const sb = ranges[b][1] - ranges[b][0];
-      const grid = density2d(xs[a], xs[b], w, { nx: CORNER_GRID, ny: CORNER_GRID, xRange: ranges[a], yRange: ranges[b], smooth: [smooth[a], smooth[b]], binning: 'linear' });
-      const levels = creditLevels(grid.z, MASS_LEVELS);
-      const rx = rounders[a], ry = rounders[b];
-      contours.push({
-        x: names[a],
-        y: names[b],
-        levels: MASS_LEVELS.map((mass, li) => ({
-          mass,
-          paths: contourPaths(grid, levels[li])
-            .map((path) => roundPath(simplifyPath(path, CONTOUR_TOLERANCE, sa, sb), rx, ry))
-            .filter((path) => path.length > 1),
-        })),
-        points: Array.from(picks, (i) => [rx(xs[a][i]), ry(xs[b][i])] as [number, number]),
-      });
-    }
-  }
-  return { marginals, contours, correlation: null };
+  return ok;
 }
 
-// Reused across objects: the per-parameter sort shared by the summary and the diagnostics.
+/** Whether any of rows [a, b) has a positive weight. */
+export function anyPositiveWeight(w: Floats, a: number, b: number, logWeights: boolean): boolean {
+  for (let r = a; r < b; r++) if (logWeights ? w[r] > -Infinity : w[r] > 0) return true;
+  return false;
+}
+
+/** The problem of an object every draw of which has zero weight. */
+export function zeroWeightProblem(names: Pick<RowCheckNames, 'file' | 'weight'>, logWeights: boolean, row: number, id: string, draws: number): Problem {
+  return {
+    severity: 'error',
+    file: names.file,
+    row,
+    object: id,
+    column: names.weight,
+    message: 'every draw of this object has zero weight',
+    expected: 'at least one draw with a weight > 0',
+    got: `${draws} draws of weight ${logWeights ? '0 (log_weight -inf)' : '0'}`,
+  };
+}
+
+// ---- the kernel ----------------------------------------------------------------------------
+
+// Reused across objects and batches (one thread each).
 let sortWork: SortedDraws = { x: new Float64Array(1024), w: new Float64Array(1024), n: 0, total: 0 };
+const walk = new Float64Array(SUMMARY_PROBS.length);
+const meanStd = new Float64Array(2);
+const chartWriter = new JsonWriter();
+const K = SUMMARY_PROBS.length;
+/** Slots of `summarySortedAt`'s output: mean, std, the K quantiles, two HDIs, the Kish ESS. */
+const SUMMARY_SLOTS = 2 + K + 4 + 1;
+/** Highest-density interval levels of the catalogue. */
+const HDI_LEVELS = [0.68, 0.95] as const;
+/** Sorted draws of fewer than this take the scalar sort (as `sortDraws` does). */
+const RADIX_MIN = 64;
 
+/**
+ * Mean, std, percentiles and HDIs of one parameter, its density moments (the standard deviation
+ * `sigma` from the covariance) written to `st` at `at` and returned, from the draws at slots x
+ * and w of `memory()` (n of them) and the same as views.
+ */
+function paramSummary(x: number, w: number, n: number, xv: Float64Array, wv: Float64Array, sigma: number, probs: number, st: Float64Array, at: number): SampleMoments {
+  const S = alloc(2 * n + SUMMARY_SLOTS);
+  const s = sortDrawsAt(x, w, n, S, S + n);
+  if (s && s.n >= RADIX_MIN) {
+    const out = S + 2 * n;
+    summarySortedAt(S, S + n, s.n, s.total, probs, K, HDI_LEVELS[0] * s.total * (1 - 1e-12), HDI_LEVELS[1] * s.total * (1 - 1e-12), out);
+    const m = memory();
+    st[at] = m[out];
+    st[at + 1] = m[out + 1];
+    st[at + 2] = m[out + 2];
+    st[at + 3] = m[out + 3];
+    st[at + 4] = m[out + 5];
+    st[at + 5] = m[out + 7];
+    st[at + 6] = m[out + 8];
+    for (let q = 0; q < 4; q++) st[at + 7 + q] = m[out + 2 + K + q];
+    const mom = { lo: m[S], hi: m[S + s.n - 1], sigma, iqr: m[out + 6] - m[out + 4], neff: m[out + 2 + K + 4], total: s.total };
+    release(S);
+    return mom;
+  }
+  release(S);
+  // the scalar route (no WebAssembly, or few draws): the same definitions
+  if (sortWork.x.length < n) sortWork = { x: new Float64Array(Math.max(n, 2 * sortWork.x.length)), w: new Float64Array(Math.max(n, 2 * sortWork.x.length)), n: 0, total: 0 };
+  const sorted = sortDraws(xv, wv, sortWork);
+  meanStdSorted(sorted, meanStd);
+  quantilesSorted(sorted, SUMMARY_PROBS, walk);
+  st[at] = meanStd[0];
+  st[at + 1] = meanStd[1];
+  st[at + 2] = walk[0];
+  st[at + 3] = walk[1];
+  st[at + 4] = walk[3];
+  st[at + 5] = walk[5];
+  st[at + 6] = walk[6];
+  const h68 = hdiSorted(sorted, HDI_LEVELS[0]);
+  const h95 = hdiSorted(sorted, HDI_LEVELS[1]);
+  st[at + 7] = h68[0];
+  st[at + 8] = h68[1];
+  st[at + 9] = h95[0];
+  st[at + 10] = h95[1];
+  return {
+    lo: sorted.n ? sorted.x[0] : NaN,
+    hi: sorted.n ? sorted.x[sorted.n - 1] : NaN,
+    sigma,
+    iqr: walk[4] - walk[2],
+    neff: kishEss(sorted.w.subarray(0, sorted.n)),
+    total: sorted.total,
+  };
+}
 
-/** Summarise every object of a batch. Throws `PosterityError` (naming the object) on invalid weights. */
+/** Summarise every object of a batch. Throws `PosterityError` (naming the object) on invalid weights of unchecked rows. */
 export function summariseBatch(ctx: KernelContext, batch: ObjectBatch): BatchResult {
   const k = ctx.names.length;
   const m = ctx.m;
@@ -263,6 +289,7 @@ export function summariseBatch(ctx: KernelContext, batch: ObjectBatch): BatchRes
   const count = batch.index.length;
   const out: BatchResult = {
     index: Int32Array.from(batch.index),
+    valid: new Uint8Array(count),
     stats: new Float64Array(count * k * STAT_FIELDS).fill(NaN),
     multimodal: new Uint8Array(count * k),
     cov: new Float64Array(count * k * k),
@@ -272,19 +299,53 @@ export function summariseBatch(ctx: KernelContext, batch: ObjectBatch): BatchRes
     flags: new Int32Array(count),
     popValues: new Float64Array(count * k * m).fill(NaN),
     popLogPrior: new Float64Array(count * m).fill(NaN),
-    charts: ctx.charts ? [] : null,
+    chartJson: null,
+    chartEnds: ctx.charts ? new Int32Array(count) : null,
+    problems: [],
   };
+  const report = (p: Problem) => out.problems.push(p);
+  const mode = MULTIMODAL_OPTS(q.multimodalMinMass);
+  chartWriter.reset();
+  const kk = k + (k & 1);
+  const base = alloc(K);
+  memory().set(SUMMARY_PROBS, base);
   for (let o = 0; o < count; o++) {
-    const a = batch.offsets[o], b = batch.offsets[o + 1];
-    const len = b - a;
+    const cs = batch.parts[batch.part[o]];
+    const a = batch.start[o], b = batch.end[o];
+    const n = b - a;
     const id = batch.ids[o];
-    const xs = batch.params.map((p) => p.subarray(a, b));
-    const raw = batch.weight.subarray(a, b);
-    const w = normaliseWeights(ctx.logWeights ? { logWeights: raw } : { weights: raw }, id);
+    if (batch.firstRow && ctx.check) {
+      const row0 = batch.firstRow[o];
+      if (!checkRows(cs, a, b, ctx.check, ctx.logWeights, row0, report)) {
+        if (out.chartEnds) out.chartEnds[o] = chartWriter.length;
+        continue;
+      }
+      if (!anyPositiveWeight(cs.weight, a, b, ctx.logWeights)) {
+        report(zeroWeightProblem(ctx.check, ctx.logWeights, row0, id, n));
+        if (out.chartEnds) out.chartEnds[o] = chartWriter.length;
+        continue;
+      }
+    }
+    // The object's weights and parameters as float64 in the SIMD memory (slots D: w, then the
+    // k parameters), with room reserved first for everything the steps below allocate, so the
+    // views made now stay valid.
+    // (the steps allocate one after another, each freeing its slots: the largest one counts)
+    reserve((k + 1) * n + Math.max(k * n + n * kk + k * kk, 6 * n + SUMMARY_SLOTS + 3, kdeScratchSlots(256), ctx.charts ? CORNER_SCRATCH_SLOTS(n, k) : 0));
+    const D = alloc((k + 1) * n);
+    const mem = memory();
+    const w = mem.subarray(D, D + n);
+    normaliseWeightsInto(cs.weight.subarray(a, b), ctx.logWeights, w, id);
+    const xs: Float64Array[] = [];
+    for (let j = 0; j < k; j++) {
+      const x = mem.subarray(D + (j + 1) * n, D + (j + 2) * n);
+      x.set(cs.params[j].subarray(a, b));
+      xs.push(x);
+    }
     let flags = 0;
-    out.nSamples[o] = len;
-    if (batch.chain) {
-      const chain = batch.chain.subarray(a, b);
+    out.nSamples[o] = n;
+    out.valid[o] = 1;
+    if (cs.chain) {
+      const chain = cs.chain.subarray(a, b);
       let ess = Infinity;
       for (let j = 0; j < k; j++) ess = Math.min(ess, autocorrEss(xs[j], chain));
       out.ess[o] = ess;
@@ -292,42 +353,26 @@ export function summariseBatch(ctx: KernelContext, batch: ObjectBatch): BatchRes
     } else out.ess[o] = kishEss(w);
     if (out.ess[o] < q.minEss) flags |= FLAGS.LOW_ESS;
 
-    if (sortWork.x.length < len) {
-      const size = Math.max(len, sortWork.x.length * 2);
-      sortWork = { x: new Float64Array(size), w: new Float64Array(size), n: 0, total: 0 };
-    }
+    // covariance (and from its diagonal the standard deviations the density rules use)
+    const cov = weightedCovariance(xs, w);
+    out.cov.set(cov, o * k * k);
+
     const moments: SampleMoments[] = [];
     for (let j = 0; j < k; j++) {
-      const sorted = sortDraws(xs[j], w, sortWork);
-      const s: ParamSummary = summariseSorted(sorted);
-      const mom = sampleMoments(xs[j], w, sorted);
-      moments.push(mom);
       const at = (o * k + j) * STAT_FIELDS;
-      const st = out.stats;
-      st[at] = s.mean;
-      st[at + 1] = s.std;
-      st[at + 2] = s.p025;
-      st[at + 3] = s.p16;
-      st[at + 4] = s.p50;
-      st[at + 5] = s.p84;
-      st[at + 6] = s.p975;
-      st[at + 7] = s.hdi68[0];
-      st[at + 8] = s.hdi68[1];
-      st[at + 9] = s.hdi95[0];
-      st[at + 10] = s.hdi95[1];
-      if (isMultimodal(xs[j], w, { ...MULTIMODAL_OPTS(q.multimodalMinMass), moments: mom })) {
+      const mom = paramSummary(D + (j + 1) * n, D, n, xs[j], w, Math.sqrt(cov[j * k + j]), base, out.stats, at);
+      moments.push(mom);
+      if (isMultimodal(xs[j], w, { ...mode, moments: mom })) {
         out.multimodal[o * k + j] = 1;
         flags |= FLAGS.MULTIMODAL;
       }
       const prior = ctx.uniformPriors[j];
       if (prior) {
         const em = priorEdgeMass(xs[j], w, prior, q.priorEdgeWidth);
-        st[at + 11] = em;
+        out.stats[at + 11] = em;
         if (em > q.priorEdgeMass) flags |= FLAGS.PRIOR_EDGE;
       }
     }
-    const cov = weightedCovariance(xs, w);
-    out.cov.set(cov, o * k * k);
     out.flags[o] = flags;
 
     // equal-weight resample (systematic resampling, seeded per object)
@@ -335,19 +380,24 @@ export function summariseBatch(ctx: KernelContext, batch: ObjectBatch): BatchRes
     const u0 = rng.next() / m;
     let acc = 0;
     let r = 0;
+    const lp = cs.logPrior;
     for (let d = 0; d < m; d++) {
       const u = u0 + d / m;
-      while (r < len - 1 && acc + w[r] < u) acc += w[r++];
+      while (r < n - 1 && acc + w[r] < u) acc += w[r++];
       for (let j = 0; j < k; j++) out.popValues[(o * k + j) * m + d] = xs[j][r];
-      if (batch.logPrior) out.popLogPrior[o * m + d] = batch.logPrior[a + r];
+      if (lp) out.popLogPrior[o * m + d] = lp[a + r];
     }
 
-    if (out.charts) {
-      const charts = chartsFor(ctx.names, xs, w, deriveSeed(ctx.seed, 'corner', id), moments);
+    if (out.chartEnds) {
+      const corner = cornerData(ctx.names, xs, w, deriveSeed(ctx.seed, 'corner', id), moments);
       const corr = correlationFromCovariance(cov, k);
-      charts.correlation = Array.from({ length: k }, (_, r1) => Array.from(corr.subarray(r1 * k, r1 * k + k), (v) => round(v, 3)));
-      out.charts.push(charts);
+      const correlation = Array.from({ length: k }, (_, r1) => Array.from(corr.subarray(r1 * k, r1 * k + k), (v) => round(v, 3)));
+      writeChartsJson(chartWriter, corner, correlation);
+      out.chartEnds[o] = chartWriter.length;
     }
+    release(D);
   }
+  release(base);
+  if (out.chartEnds) out.chartJson = chartWriter.take();
   return out;
 }

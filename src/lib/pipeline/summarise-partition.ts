@@ -5,7 +5,7 @@
  * exactly the result one pass over the whole catalogue gives. Partials record the bundle's
  * checksums and the tool version, and are refused when they do not belong together.
  */
-import { mkdir, open, rm, mkdtemp } from 'node:fs/promises';
+import { mkdir, mkdtemp } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { loadBundle, type Bundle } from '../bundle/load.ts';
@@ -14,6 +14,7 @@ import { allocPopulationDraws, allocSummaryTable, summariseAll, type PopulationD
 import type { ObjectCharts } from './summarise-kernel.ts';
 import { readPartial, scatterPartial, writePartial, type ChartsSource, type PartialHeader, type PartialMeta } from './partials.ts';
 import { TOOL } from './run.ts';
+import { ChartSpool } from './chart-spool.ts';
 
 export const PARTITION_RULE = 'fnv1a32(utf8(id)) mod of';
 
@@ -45,57 +46,6 @@ function partialMeta(bundle: Bundle, part: number, of: number): PartialMeta {
   };
 }
 
-/**
- * Corner data collected as JSON lines in a temporary file, in whatever order it arrives,
- * and replayed in catalogue order: memory holds two numbers per object, not the charts.
- */
-class ChartSpool {
-  private readonly offset: Float64Array;
-  private readonly length: Float64Array;
-  private at = 0;
-  private constructor(private readonly dir: string, private fh: import('node:fs/promises').FileHandle, n: number) {
-    this.offset = new Float64Array(n).fill(-1);
-    this.length = new Float64Array(n);
-  }
-  static async create(n: number): Promise<ChartSpool> {
-    const dir = await mkdtemp(join(tmpdir(), 'posterity-charts-'));
-    return new ChartSpool(dir, await open(join(dir, 'charts.jsonl'), 'w+'), n);
-  }
-  async add(i: number, charts: ObjectCharts): Promise<void> {
-    const bytes = encoder.encode(JSON.stringify(charts) + '\n');
-    await this.fh.write(bytes, 0, bytes.length, this.at);
-    this.offset[i] = this.at;
-    this.length[i] = bytes.length;
-    this.at += bytes.length;
-  }
-  reset(): void {
-    this.offset.fill(-1);
-    this.at = 0;
-  }
-  source(members: Int32Array): ChartsSource {
-    const have = Array.from(members).filter((i) => this.offset[i] >= 0);
-    const index = Int32Array.from(have);
-    const lengths = Float64Array.from(have, (i) => this.length[i]);
-    const fh = this.fh;
-    const offset = this.offset;
-    return {
-      index,
-      lengths,
-      lines: async function* () {
-        for (let c = 0; c < index.length; c++) {
-          const buf = new Uint8Array(lengths[c]);
-          await fh.read(buf, 0, buf.length, offset[index[c]]);
-          yield buf;
-        }
-      },
-    };
-  }
-  async close(): Promise<void> {
-    await this.fh.close();
-    await rm(this.dir, { recursive: true, force: true });
-  }
-}
-
 export interface PartitionOptions {
   part: number;
   of: number;
@@ -123,13 +73,14 @@ export async function summarisePartition(bundleDir: string, opts: PartitionOptio
   const member = new Uint8Array(n);
   for (let i = 0; i < n; i++) member[i] = partitionOf(bundle.objects.id[i], of) === part ? 1 : 0;
   const members = Int32Array.from({ length: n }, (_, i) => i).filter((i) => member[i] === 1);
-  const spool = opts.charts === false ? null : await ChartSpool.create(n);
+  // corner data waits in a spool (any order in, catalogue order out): memory holds three numbers per object, not the charts
+  const spool = opts.charts === false ? null : new ChartSpool(await mkdtemp(join(tmpdir(), 'posterity-charts-')), n);
   try {
     const { table, pop } = await summariseAll(bundle, {
       seed: bundle.config.seed,
       only: (i) => member[i] === 1,
       workers: opts.workers,
-      ...(spool ? { onCharts: (i: number, c: ObjectCharts) => spool.add(i, c), onRestart: () => spool.reset() } : {}),
+      ...(spool ? { onChartsJson: (i: number, json: Uint8Array) => spool.set(i, json), onRestart: () => spool.reset() } : {}),
     });
     const outDir = opts.outDir ?? join(bundleDir, '.posterity', 'partials');
     await mkdir(outDir, { recursive: true });
@@ -137,7 +88,7 @@ export async function summarisePartition(bundleDir: string, opts: PartitionOptio
     const header = await writePartial(file, partialMeta(bundle, part, of), table, pop, members, spool ? spool.source(members) : null);
     return { file, objects: members.length, header };
   } finally {
-    await spool?.close();
+    spool?.close();
   }
 }
 

@@ -125,12 +125,18 @@ export interface SummariseOptions {
    * supersedes an earlier one).
    */
   onCharts?: (index: number, charts: ObjectCharts) => void | Promise<void>;
+  /**
+   * The same corner data as its JSON text (UTF-8, `JSON.stringify` of what `onCharts` gets), as
+   * the worker threads wrote it: cheaper for a caller that stores it. Called like `onCharts`,
+   * and before it when both are given. The bytes are a view, valid during the call.
+   */
+  onChartsJson?: (index: number, json: Uint8Array) => void | Promise<void>;
   onRestart?: () => void | Promise<void>;
   /** Worker threads (default: one per core; 1 works in this thread). Results do not depend on it. */
   workers?: number;
   /** Only objects for which this is true are summarised (the others keep their initial NaN/0 values). */
   only?: (index: number) => boolean;
-  /** Streaming: rows per batch handed to a worker (whole objects; default 16384). */
+  /** Rows per batch handed to a worker (whole objects; default 16384, 131072 for a zero-copy Arrow IPC read). */
   batchRows?: number;
   /** Streaming, unsorted input: largest spill file read back at once (default 256 MB). */
   spillBudgetBytes?: number;
@@ -208,6 +214,7 @@ export function applyBatchResult(t: SummaryTable, pop: PopulationDraws, r: Batch
   const m = pop.m;
   const cols = STAT_KEYS.map((key) => t[key]);
   for (let o = 0; o < r.index.length; o++) {
+    if (!r.valid[o]) continue; // bad rows: reported, not summarised
     const i = r.index[o];
     for (let j = 0; j < k; j++) {
       const at = (o * k + j) * STAT_FIELDS;
@@ -241,8 +248,13 @@ function* memoryBatches(bundle: Bundle, only: ((i: number) => boolean) | undefin
       rows += len;
     }
     if (!members.length) continue;
-    const offsets = new Int32Array(members.length + 1);
-    members.forEach((obj, o) => (offsets[o + 1] = offsets[o] + s.offsets[obj + 1] - s.offsets[obj]));
+    const start = new Int32Array(members.length);
+    const end = new Int32Array(members.length);
+    let r0 = 0;
+    members.forEach((obj, o) => {
+      start[o] = r0;
+      end[o] = r0 += s.offsets[obj + 1] - s.offsets[obj];
+    });
     const params = Array.from({ length: k }, () => new Float64Array(rows));
     const weight = new Float64Array(rows);
     const logPrior = s.logPrior ? new Float64Array(rows) : null;
@@ -256,7 +268,15 @@ function* memoryBatches(bundle: Bundle, only: ((i: number) => boolean) | undefin
         if (logPrior) logPrior[r] = s.logPrior![row];
         if (chain) chain[r] = s.chain![row];
       }
-    yield { index: Int32Array.from(members), ids: members.map((obj) => bundle.objects.id[obj]), offsets, params, weight, logPrior, chain };
+    yield {
+      index: Int32Array.from(members),
+      ids: members.map((obj) => bundle.objects.id[obj]),
+      parts: [{ params, weight, logPrior, chain }],
+      part: new Int32Array(members.length),
+      start,
+      end,
+      firstRow: null,
+    };
   }
 }
 
@@ -305,12 +325,22 @@ export async function summariseAll(bundle: Bundle, opts: SummariseOptions): Prom
   let sink = new ProblemSink();
   if (samples || layout) {
     const workers = Math.max(1, Math.floor(opts.workers ?? availableParallelism()));
-    const ctx = kernelContext(config, { seed: opts.seed, m, logWeights, charts: !!opts.onCharts });
+    const check = layout ? { file: layout.file, weight: layout.weight, params: layout.params, paramNames: layout.paramNames, logPrior: layout.logPrior } : null;
+    const ctx = kernelContext(config, { seed: opts.seed, m, logWeights, charts: !!(opts.onCharts || opts.onChartsJson), check });
     const pool = new SummaryPool(ctx, workers);
     const maxInFlight = 2 * Math.max(1, pool.threads) + 1;
+    const decoder = new TextDecoder();
     const apply = async (r: BatchResult) => {
+      for (const p of r.problems) sink.add(p);
       applyBatchResult(t, pop, r);
-      if (opts.onCharts && r.charts) for (let o = 0; o < r.index.length; o++) await opts.onCharts(r.index[o], r.charts[o]);
+      if (r.chartJson && r.chartEnds)
+        for (let o = 0; o < r.index.length; o++) {
+          const from = o ? r.chartEnds[o - 1] : 0;
+          if (!r.valid[o] || r.chartEnds[o] === from) continue;
+          const json = r.chartJson.subarray(from, r.chartEnds[o]);
+          if (opts.onChartsJson) await opts.onChartsJson(r.index[o], json);
+          if (opts.onCharts) await opts.onCharts(r.index[o], JSON.parse(decoder.decode(json)) as ObjectCharts);
+        }
     };
     const batchRows = opts.batchRows ?? 16384;
     try {
@@ -319,7 +349,8 @@ export async function summariseAll(bundle: Bundle, opts: SummariseOptions): Prom
         for (let i = 0; i < n; i++) if (samples.offsets[i + 1] > samples.offsets[i]) seen[i] = 1;
         await drive(pool, memoryBatches(bundle, only, batchRows), apply, maxInFlight);
       } else {
-        const base = { only, sink, seen, batchRows };
+        // each reader its own default block (Arrow IPC: 131072 rows, read as the floor reads them)
+        const base = { only, sink, seen, batchRows: opts.batchRows };
         try {
           await drive(pool, groupedBatches(bundle, layout!, base), apply, maxInFlight);
           opts.onStream?.({ mode: 'grouped' });

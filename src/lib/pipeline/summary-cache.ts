@@ -12,7 +12,7 @@
  */
 import { createHash } from 'node:crypto';
 import { existsSync } from 'node:fs';
-import { mkdir, readFile, rm, stat, writeFile, open } from 'node:fs/promises';
+import { mkdir, readFile, rm, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import type { Bundle } from '../bundle/load.ts';
 import type { ChartsSource } from './partials.ts';
@@ -50,8 +50,8 @@ export async function readCachedSummary(dir: string, key: string): Promise<Merge
 }
 
 /**
- * Store a bundle's summaries under `dir` with their key. Corner data comes from
- * `chartFiles(i)` (the pipeline's spool: one JSON file per object, or null).
+ * Store a bundle's summaries under `dir` with their key. Corner data comes from `charts` (the
+ * pipeline's spool, `ChartSpool.source`), or none.
  */
 export async function writeCachedSummary(
   dir: string,
@@ -59,38 +59,11 @@ export async function writeCachedSummary(
   bundle: Bundle,
   table: SummaryTable,
   pop: PopulationDraws,
-  chartFile: (i: number) => string | null,
+  charts: ChartsSource | null,
 ): Promise<void> {
   await mkdir(dir, { recursive: true });
   await rm(join(dir, KEY), { force: true });
-  const n = table.n;
-  const have: number[] = [];
-  const lengths: number[] = [];
-  for (let i = 0; i < n; i++) {
-    const f = chartFile(i);
-    if (!f) continue;
-    have.push(i);
-    lengths.push((await stat(f)).size + 1);
-  }
-  const charts: ChartsSource = {
-    index: Int32Array.from(have),
-    lengths: Float64Array.from(lengths),
-    lines: async function* () {
-      for (const i of have) {
-        const fh = await open(chartFile(i)!, 'r');
-        try {
-          const body = await fh.readFile();
-          const line = new Uint8Array(body.length + 1);
-          line.set(body);
-          line[body.length] = 10;
-          yield line;
-        } finally {
-          await fh.close();
-        }
-      }
-    },
-  };
-  const members = Int32Array.from({ length: n }, (_, i) => i);
-  await writePartial(join(dir, FILE), summaryMeta(bundle), table, pop, members, have.length ? charts : null);
+  const members = Int32Array.from({ length: table.n }, (_, i) => i);
+  await writePartial(join(dir, FILE), summaryMeta(bundle), table, pop, members, charts && charts.index.length ? charts : null);
   await writeFile(join(dir, KEY), key + '\n');
 }

@@ -3,6 +3,7 @@
  * covariance and correlation. Weights need not be normalised; zero weights carry no mass.
  */
 import { PosterityError, problem } from '../problems.ts';
+import { alloc, covarianceTerms, crossProducts, memory, offsetOf, place, release, sortDrawsAt, summarySortedAt } from './simd.ts';
 
 export { autocorrEss } from './autocorr.ts';
 
@@ -165,9 +166,29 @@ function radixWork(n: number): RadixWork {
 }
 
 /**
+ * Sorts k[0..n) by the order-preserving 64-bit pattern of each value (-0 before +0), ties in
+ * their original order, permuting v alongside (a comparison sort of indices; for the draws whose
+ * high words tie too often for `radixSortPairs`' insertion pass).
+ */
+function stableSortPairs(k: Float64Array, v: Float64Array, n: number): void {
+  const order = Array.from({ length: n }, (_, i) => i).sort((a, b) => {
+    const x = k[a], y = k[b];
+    if (x !== y) return x < y ? -1 : 1;
+    const nx = Object.is(x, -0), ny = Object.is(y, -0); // -0 before +0
+    return nx !== ny ? (nx ? -1 : 1) : a - b;
+  });
+  const ks = Float64Array.from(order, (i) => k[i]);
+  const vs = Float64Array.from(order, (i) => v[i]);
+  k.set(ks);
+  v.set(vs);
+}
+
+/**
  * Sorts k[0..n) ascending, permuting v alongside: LSD radix sort (8-bit digits) on the high
  * 32 bits of the order-preserving bit pattern of each double, skipping constant digits, then an
- * insertion pass on the full 64 bits that settles draws sharing their high word.
+ * insertion pass on the full 64 bits that settles draws sharing their high word (or, when many
+ * do, `stableSortPairs`). The order is that of the 64-bit pattern (-0 before +0), ties in
+ * their original order.
  */
 function radixSortPairs(k: Float64Array, v: Float64Array, n: number): void {
   const wk = radixWork(n);
@@ -234,7 +255,7 @@ function radixSortPairs(k: Float64Array, v: Float64Array, n: number): void {
       idx[j + 1] = idx[j];
       j--;
       if (--budget < 0) {
-        sortPairs(k, v, n);
+        stableSortPairs(k, v, n);
         return;
       }
     }
@@ -257,6 +278,24 @@ export function sortDraws(x: Float64Array, w: Float64Array, out?: SortedDraws): 
   const n0 = x.length;
   const dst: SortedDraws =
     out && out.x.length >= n0 ? out : { x: new Float64Array(n0), w: new Float64Array(n0), n: 0, total: 0 };
+  if (n0 >= 64) {
+    // the same order as radixSortPairs below, in WebAssembly (kernels.wat)
+    const base = alloc(0);
+    const px = place(x);
+    const pw = place(w);
+    const out = alloc(2 * n0);
+    const s = sortDrawsAt(px, pw, n0, out, out + n0);
+    if (s && s.n >= 64) {
+      const m = memory();
+      dst.x.set(m.subarray(out, out + s.n));
+      dst.w.set(m.subarray(out + n0, out + n0 + s.n));
+      dst.n = s.n;
+      dst.total = s.total;
+      release(base);
+      return dst;
+    }
+    release(base);
+  }
   let n = 0;
   let total = 0;
   for (let i = 0; i < n0; i++) {
@@ -302,6 +341,39 @@ export function quantileSorted(s: SortedDraws, prob: number): number {
     cPrev += w[i];
   }
   return x[n - 1];
+}
+
+/**
+ * `quantileSorted` at several probabilities in one walk over the draws: `probs` must be
+ * ascending; out[at + k] is exactly `quantileSorted(s, probs[k])` (the same operations in the
+ * same order), so one pass serves the published percentiles and the quartiles together.
+ */
+export function quantilesSorted(s: SortedDraws, probs: ArrayLike<number>, out: Float64Array, at = 0): void {
+  const n = s.n;
+  const K = probs.length;
+  if (n === 0) {
+    for (let q = 0; q < K; q++) out[at + q] = NaN;
+    return;
+  }
+  const { x, w } = s;
+  const total = s.total;
+  let q = 0;
+  let posPrev = 0.5 * w[0];
+  while (q < K && probs[q] * total <= posPrev) out[at + q++] = x[0];
+  let cPrev = w[0];
+  for (let i = 1; i < n && q < K; i++) {
+    const pos = cPrev + 0.5 * w[i];
+    while (q < K) {
+      const target = probs[q] * total;
+      if (!(target <= pos)) break;
+      const f = (target - posPrev) / (pos - posPrev);
+      out[at + q++] = x[i - 1] + f * (x[i] - x[i - 1]);
+    }
+    posPrev = pos;
+    cPrev += w[i];
+  }
+  // NaN probabilities (never <= anything) give NaN, as in quantileSorted; the rest the largest draw
+  for (; q < K; q++) out[at + q] = Number.isNaN(probs[q]) ? NaN : x[n - 1];
 }
 
 /**
@@ -363,26 +435,29 @@ export function hdi(x: Float64Array, w: Float64Array, level: number): [number, n
  */
 export function weightedCovariance(cols: readonly Float64Array[], w: Float64Array): Float64Array {
   const k = cols.length;
+  const n = w.length;
+  const kk = k + (k & 1);
   const cov = new Float64Array(k * k);
-  const means = new Float64Array(k);
-  for (let a = 0; a < k; a++) means[a] = weightedMean(cols[a], w);
-  let sw = 0;
-  for (let i = 0; i < w.length; i++) sw += w[i];
-  for (let a = 0; a < k; a++) {
-    const xa = cols[a];
-    const ma = means[a];
-    for (let b = a; b < k; b++) {
-      const xb = cols[b];
-      const mb = means[b];
-      let s = 0;
-      for (let i = 0; i < w.length; i++) {
-        const wi = w[i];
-        if (wi === 0) continue;
-        s += wi * (xa[i] - ma) * (xb[i] - mb);
-      }
-      cov[a * k + b] = cov[b * k + a] = s / sw;
-    }
+  if (k === 0) return cov;
+  // the means, then the cross products in the draws' order (kernels.wat, or its scalar loops)
+  const base = alloc(0);
+  const pw = place(w);
+  // the columns as one block of slots: where they already are, when they lie so in the SIMD memory
+  const first = offsetOf(cols[0]);
+  let px = first;
+  for (let a = 0; a < k && px >= 0; a++) if (cols[a].length !== n || offsetOf(cols[a]) !== first + a * n) px = -1;
+  if (px < 0) {
+    px = alloc(k * n);
+    for (let a = 0; a < k; a++) memory().set(cols[a].subarray(0, n), px + a * n);
   }
+  const t = alloc(k * n + n * kk + k * kk);
+  const u = t + k * n;
+  const p = u + n * kk;
+  const sw = covarianceTerms(pw, px, n, k, t, u);
+  crossProducts(t, u, n, k, p);
+  const m = memory();
+  for (let a = 0; a < k; a++) for (let b = a; b < k; b++) cov[a * k + b] = cov[b * k + a] = m[p + a * kk + b] / sw;
+  release(base);
   return cov;
 }
 
@@ -417,8 +492,15 @@ export function summarise(x: Float64Array, w: Float64Array): ParamSummary {
   return summariseSorted(sortDraws(x, w, workspace));
 }
 
-/** `summarise` of draws already sorted by `sortDraws` (so that one sort can serve several uses). */
-export function summariseSorted(s: SortedDraws): ParamSummary {
+/** Probabilities of the published percentiles and the quartiles, ascending (one `quantilesSorted` walk). */
+export const SUMMARY_PROBS = Object.freeze([0.025, 0.16, 0.25, 0.5, 0.75, 0.84, 0.975]);
+const walk = new Float64Array(SUMMARY_PROBS.length);
+
+/**
+ * Mean and standard deviation of sorted draws (sums in sorted order, normalised by the total
+ * weight), written to out[at], out[at + 1].
+ */
+export function meanStdSorted(s: SortedDraws, out: Float64Array, at = 0): void {
   const n = s.n;
   const sx = s.x;
   const sw = s.w;
@@ -430,14 +512,50 @@ export function summariseSorted(s: SortedDraws): ParamSummary {
     const d = sx[i] - mean;
     ss += sw[i] * d * d;
   }
+  out[at] = mean;
+  out[at + 1] = Math.sqrt(ss / s.total);
+}
+
+/** `summarise` of draws already sorted by `sortDraws` (so that one sort can serve several uses). */
+export function summariseSorted(s: SortedDraws): ParamSummary {
+  if (s.n >= 1) {
+    // one WebAssembly call (kernels.wat), the same operations as the scalar route below
+    const base = alloc(0);
+    const px = place(s.x.subarray(0, s.n));
+    const pw = place(s.w.subarray(0, s.n));
+    const probs = alloc(SUMMARY_PROBS.length + 2 + SUMMARY_PROBS.length + 5);
+    const out = probs + SUMMARY_PROBS.length;
+    memory().set(SUMMARY_PROBS, probs);
+    const K = SUMMARY_PROBS.length;
+    if (summarySortedAt(px, pw, s.n, s.total, probs, K, 0.68 * s.total * (1 - 1e-12), 0.95 * s.total * (1 - 1e-12), out)) {
+      const m = memory();
+      const r: ParamSummary = {
+        mean: m[out],
+        std: m[out + 1],
+        p025: m[out + 2],
+        p16: m[out + 3],
+        p50: m[out + 5],
+        p84: m[out + 7],
+        p975: m[out + 8],
+        hdi68: [m[out + 2 + K], m[out + 3 + K]],
+        hdi95: [m[out + 4 + K], m[out + 5 + K]],
+      };
+      release(base);
+      return r;
+    }
+    release(base);
+  }
+  const ms = new Float64Array(2);
+  meanStdSorted(s, ms);
+  quantilesSorted(s, SUMMARY_PROBS, walk);
   return {
-    mean,
-    std: Math.sqrt(ss / s.total),
-    p025: quantileSorted(s, 0.025),
-    p16: quantileSorted(s, 0.16),
-    p50: quantileSorted(s, 0.5),
-    p84: quantileSorted(s, 0.84),
-    p975: quantileSorted(s, 0.975),
+    mean: ms[0],
+    std: ms[1],
+    p025: walk[0],
+    p16: walk[1],
+    p50: walk[3],
+    p84: walk[5],
+    p975: walk[6],
     hdi68: hdiSorted(s, 0.68),
     hdi95: hdiSorted(s, 0.95),
   };

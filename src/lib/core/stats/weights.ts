@@ -22,8 +22,20 @@ export function normaliseWeights(
 ): Float64Array {
   const isLog = input.weights === undefined;
   const src = input.weights ?? input.logWeights;
+  const n = src?.length ?? 0;
+  const out = new Float64Array(n);
+  normaliseWeightsInto(src ?? out, isLog, out, objectId);
+  return out;
+}
+
+/**
+ * `normaliseWeights` into `out` (length at least `src.length`; the first `src.length` entries are
+ * written) from linear (`isLog` false) or natural-log weights, with the same checks and the same
+ * arithmetic; `src` may be a Float32Array view. Returns the number of weights.
+ */
+export function normaliseWeightsInto(src: ArrayLike<number>, isLog: boolean, out: Float64Array, objectId: string): number {
   const column = isLog ? 'log_weight' : 'weight';
-  if (src === undefined || src.length === 0) {
+  if (src.length === 0) {
     throw new PosterityError(
       problem({ message: 'object has no posterior draws', object: objectId, column, expected: 'at least one draw', got: '0 draws' }),
     );
@@ -58,7 +70,6 @@ export function normaliseWeights(
       }),
     );
   }
-  const out = new Float64Array(n);
   let sum = 0;
   for (let i = 0; i < n; i++) {
     const v = isLog ? Math.exp(src[i] - max) : src[i] / max;
@@ -67,7 +78,7 @@ export function normaliseWeights(
   }
   const inv = 1 / sum;
   for (let i = 0; i < n; i++) out[i] *= inv;
-  return out;
+  return n;
 }
 
 /**
