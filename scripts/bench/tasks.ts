@@ -343,23 +343,51 @@ async function pipeline(dir: string, figures: string) {
 }
 
 /**
- * The whole release build (pipeline, figure prerender, Astro site) of a bench bundle, as
- * `posterity build` runs it; time per stage, the site's size and, in viewer mode, the bytes per
- * object of the shards (gzipped). Peak memory is measured around this task's process and its
- * children (the Astro build) by the runner.
+ * A view of a bench bundle whose release.json sets the object-page mode: `static` (a page with
+ * its figures for every object), `viewer` (shards and a small page per object) or `default`
+ * (the bundle's own setting). Table files are hard links, so a view costs nothing.
  */
-async function build(dir: string) {
+async function modeView(dir: string, mode: string, n: number): Promise<string> {
+  if (mode === 'default') return dir;
+  const { link, mkdir, readFile, writeFile } = await import('node:fs/promises');
+  const to = `${dir}-${mode}`;
+  await rm(to, { recursive: true, force: true });
+  await mkdir(to, { recursive: true });
+  const cfg = JSON.parse(await readFile(join(dir, 'release.json'), 'utf8'));
+  for (const t of Object.values(cfg.tables) as { path: string }[]) await link(join(dir, t.path), join(to, t.path));
+  for (const f of await readdir(dir)) if (f.endsWith('.json') && f !== 'release.json') await link(join(dir, f), join(to, f));
+  cfg.site = { ...(cfg.site ?? {}), objectPageLimit: mode === 'static' ? Math.max(n, 1) : Math.max(1, Math.min(50000, n - 1)) };
+  await writeFile(join(to, 'release.json'), JSON.stringify(cfg, null, 2) + '\n');
+  return to;
+}
+
+/**
+ * The whole release build (pipeline, figure prerender, Astro site) of a bench bundle, as
+ * `posterity build` runs it, in an object-page mode (see `modeView`): time per stage, the site's
+ * size with and without the downloads, and the bytes of object pages: in static mode every
+ * hundredth page (its figures are inline; it loads no per-object file), in viewer mode the
+ * small page at each address plus the object's share of its shard and of the slug lookup. In
+ * static mode also the cost of drawing an object's figures (both SEDs and the posterior matrix)
+ * on one thread, over 300 objects of the build's content. Peak memory is measured around this
+ * task's process and its children (the Astro build) by the runner.
+ */
+async function build(dir: string, mode = 'default') {
   const { buildRelease } = await import('../../src/lib/release/build.ts');
+  const { objectFigures } = await import('../../src/lib/charts/figures.ts');
   const { gzipSync } = await import('node:zlib');
-  const { readFile } = await import('node:fs/promises');
+  const { readFile, stat } = await import('node:fs/promises');
+  const n = JSON.parse(await readFile(join(dir, '..', 'done.json'), 'utf8').catch(() => '{"n":0}')).n as number;
+  const bundle = await modeView(dir, mode, n);
   const out = await mkdtemp(join(tmpdir(), 'posterity-bench-build-'));
   try {
     const stages: Record<string, number> = {};
     let stage = '';
     let tStage = now();
     const t0 = now();
-    const s = await buildRelease(dir, {
+    const content = join(out, 'content');
+    const s = await buildRelease(bundle, {
       out: join(out, 'dist'),
+      keepContent: content,
       progress: (name) => {
         if (name !== stage) {
           if (stage) stages[stage] = (stages[stage] ?? 0) + now() - tStage;
@@ -370,48 +398,59 @@ async function build(dir: string) {
     });
     if (stage) stages[stage] = (stages[stage] ?? 0) + now() - tStage;
     const seconds = now() - t0;
-    const site = JSON.parse(await readFile(join(out, 'dist', 'objects', 'view', 'lookup.json'), 'utf8').catch(() => 'null'));
-    let shardGz = 0, shardRaw = 0, shards = 0;
-    const view = join(out, 'dist', 'objects', 'view');
-    const names = site ? (await readdir(view)).filter((f) => f.startsWith('shard-')) : [];
-    // every tenth shard, gzipped at level 9 (all of them would take as long as the build)
-    for (let i = 0; i < names.length; i += 10) {
-      const b = await readFile(join(view, names[i]));
-      shardRaw += b.length;
-      shardGz += gzipSync(b, { level: 9 }).length;
-      shards++;
+    const dist = join(out, 'dist');
+    const site = JSON.parse(await readFile(join(content, 'site.json'), 'utf8'));
+    const viewer = site.objectPages?.mode === 'viewer';
+    const index = JSON.parse(await readFile(join(content, 'objects', 'index.json'), 'utf8')) as { slug: string }[];
+    // object pages: every hundredth
+    const raw: number[] = [], gz: number[] = [];
+    for (let i = 0; i < index.length; i += 100) {
+      const b = await readFile(join(dist, 'objects', index[i].slug, 'index.html'));
+      raw.push(b.length);
+      gz.push(gzipSync(b, { level: 9 }).length);
     }
-    const perShard = shards ? names.length / shards : 0;
-    // static mode: every hundredth object page, gzipped at level 9 (its figures are inline)
-    let pageGz = 0, pageRaw = 0, pagesSeen = 0, pageMax = 0;
-    if (!site) {
-      const objDir = join(out, 'dist', 'objects');
-      const slugs = (await readdir(objDir, { withFileTypes: true })).filter((e) => e.isDirectory()).map((e) => e.name).sort();
-      for (let i = 0; i < slugs.length; i += 100) {
-        const b = await readFile(join(objDir, slugs[i], 'index.html')).catch(() => null);
-        if (!b) continue;
-        const g = gzipSync(b, { level: 9 }).length;
-        pageRaw += b.length;
-        pageGz += g;
-        pageMax = Math.max(pageMax, g);
-        pagesSeen++;
+    const mean = (v: number[]) => v.reduce((x, y) => x + y, 0) / Math.max(1, v.length);
+    let dataPerObject = 0;
+    if (viewer) {
+      const view = join(dist, 'objects', 'view');
+      let bytes = 0;
+      for (const f of await readdir(view)) if (/^(shard|lookup)/.test(f)) bytes += (await stat(join(view, f))).size;
+      dataPerObject = bytes / s.objects;
+    }
+    // figures of 300 objects on one thread (static mode: the content holds every object's content)
+    let figureMs: number | null = null;
+    if (!viewer) {
+      const objs = [];
+      for (let i = 0; i < Math.min(300, index.length); i++) objs.push(JSON.parse(await readFile(join(content, 'objects', `${index[i].slug}.json`), 'utf8')));
+      for (const o of objs.slice(0, 20)) objectFigures(o);
+      let best = Infinity;
+      for (let rep = 0; rep < 3; rep++) {
+        const c0 = cpuNow();
+        for (const o of objs) objectFigures(o);
+        best = Math.min(best, ((cpuNow() - c0) * 1000) / objs.length);
       }
+      figureMs = best;
     }
     return {
       seconds,
       stages,
       objects: s.objects,
-      mode: site ? 'viewer' : 'static',
+      params: site.parameters.length,
+      mode: viewer ? 'viewer' : 'static',
       pages: s.pages,
       files: s.files,
       siteBytes: s.bytes,
       downloadBytes: s.downloadBytes,
-      objectBytesGz: site ? (shardGz * perShard) / s.objects : pagesSeen ? pageGz / pagesSeen : null,
-      objectBytesRaw: site ? (shardRaw * perShard) / s.objects : pagesSeen ? pageRaw / pagesSeen : null,
-      objectBytesMaxGz: site ? null : pageMax,
+      pageRawMean: mean(raw),
+      pageRawMax: Math.max(...raw),
+      pageGzMean: mean(gz),
+      pageGzMax: Math.max(...gz),
+      dataPerObject,
+      figureMs,
     };
   } finally {
     await rm(out, { recursive: true, force: true });
+    if (bundle !== dir) await rm(bundle, { recursive: true, force: true });
   }
 }
 
@@ -427,7 +466,7 @@ export async function runTask(name: string, args: string[]): Promise<Record<stri
     case 'hierarchical': return hierarchical(args[0], args[1], args[2]);
     case 'duckdb': return duckdb(args[0]);
     case 'pipeline': return pipeline(args[0], args[1]);
-    case 'build': return build(args[0]);
+    case 'build': return build(args[0], args[1]);
     case 'pages': return (await import('./pages.ts')).pages(args[0], args[1]);
     case 'changes': return (await import('./changes.ts')).changes(args[0]);
     default: throw new Error(`unknown bench task ${name}`);

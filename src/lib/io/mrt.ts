@@ -61,7 +61,9 @@ export interface MrtDocument {
 export function cdsUnit(voUnit: string): string {
   const u = voUnit.trim();
   if (u === '') return '---';
-  const log = /^log\((.*)\)$/.exec(u);
+  // a difference of log10 values (a spread in dex): the log of a dimensionless ratio
+  if (u === 'dex') return '[-]';
+  const log = /^(?:log|dex)\((.*)\)$/.exec(u);
   if (log) return `[${cdsUnit(log[1])}]`;
   return u
     .replace(/\bsolMass\b/g, 'Msun')

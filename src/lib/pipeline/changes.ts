@@ -11,6 +11,7 @@
  * every compared parameter's median, the flags raised and cleared, and the relation fits per
  * bin and method. The arithmetic is in `core/changes.ts`.
  */
+import { parseUnit, unitLabel } from '../io/units.ts';
 import { existsSync, readFileSync } from 'node:fs';
 import { basename, join } from 'node:path';
 import type { ReleaseConfig } from '../bundle/schema.ts';
@@ -84,6 +85,12 @@ export function surveyIdentity(a: { title?: string; survey?: { name?: string } }
 }
 
 /** Find the earlier release's downloads and check that it can be compared with `config`; every problem at once. */
+/** A unit in its canonical form (io/units.ts), so releases that spell one unit differently (log(solMass), dex(solMass)) compare equal. */
+function canonicalUnit(text: string): string {
+  const r = parseUnit(text);
+  return r.ok ? unitLabel(r.unit) : text.trim();
+}
+
 export function openPrevious(opts: PreviousOptions, config: ReleaseConfig): PreviousRelease {
   const given = opts.path;
   const downloads = existsSync(join(given, 'downloads', 'release.json')) ? join(given, 'downloads') : existsSync(join(given, 'release.json')) ? given : null;
@@ -120,7 +127,7 @@ export function openPrevious(opts: PreviousOptions, config: ReleaseConfig): Prev
     problems.push({ severity: 'error', file: releaseFile, field: 'releaseDate', message: 'the versions are not Semantic Versions and the earlier release is dated after this one', expected: `a date up to ${config.releaseDate}`, got: rel.releaseDate });
 
   // the columns compared: present, with the same units
-  const docs = new Map(rel.columns!.map((c) => [c.name, c.unit ?? '']));
+  const docs = new Map(rel.columns!.map((c) => [c.name, canonicalUnit(c.unit ?? '')]));
   const prevParams = new Map(prevConfig!.parameters!.map((p) => [p.name, p]));
   const params: PreviousParam[] = [];
   const newParameters: string[] = [];
@@ -130,7 +137,7 @@ export function openPrevious(opts: PreviousOptions, config: ReleaseConfig): Prev
       newParameters.push(p.name);
       continue;
     }
-    params.push({ name: p.name, label: p.label, unit: p.unit });
+    params.push({ name: p.name, label: p.label, unit: canonicalUnit(p.unit) });
   }
   const droppedParameters = [...prevParams.keys()].filter((n) => !config.parameters.some((p) => p.name === n));
   const columns = [
@@ -237,7 +244,7 @@ export async function compareWithPrevious(prev: PreviousRelease, now: CurrentRel
       for (const c of prev.columns) {
         const got = cols.get(c.name);
         if (!got) problems.push({ severity: 'error', file, column: c.name, message: 'the earlier catalogue has no such column', expected: `column ${c.name}` });
-        else if (got.unit !== undefined && (got.unit ?? '') !== c.unit) problems.push({ severity: 'error', file, column: c.name, message: 'the unit of this column changed; the releases cannot be compared', expected: JSON.stringify(c.unit), got: JSON.stringify(got.unit) });
+        else if (got.unit !== undefined && canonicalUnit(got.unit ?? '') !== c.unit) problems.push({ severity: 'error', file, column: c.name, message: 'the unit of this column changed; the releases cannot be compared', expected: JSON.stringify(c.unit), got: JSON.stringify(got.unit) });
       }
       if (problems.length) throw new PosterityError(problems);
     }

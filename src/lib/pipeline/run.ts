@@ -17,7 +17,7 @@ import { buildCatalogue } from './catalogue.ts';
 import { objectContent, objectIndexEntries, nearestNeighbours } from './objects.ts';
 import { encodeObject, SHARD_FORMAT } from './object-codec.ts';
 import { renderMarkdown } from './markdown.ts';
-import { objectDownloadPaths, samplesTable, writeChecksums, writeJson, writeObjectDownloads } from './downloads.ts';
+import { objectDownloadPaths, samplesTable, SAMPLES_PARQUET, writeChecksums, writeJson, writeObjectDownloads } from './downloads.ts';
 import { writeCsv, cellText } from '../io/csv.ts';
 import { writeArrow } from '../io/arrow.ts';
 import { withFormatUnits } from '../io/units.ts';
@@ -142,7 +142,7 @@ export async function runPipeline(bundleDir: string, opts: PipelineOptions): Pro
   if (samples) {
     try {
       const { writeParquet } = await import('../io/parquet.ts');
-      await writeParquet(join(dl, 'samples.parquet'), samples, { rowGroupRows: 262144 });
+      await writeParquet(join(dl, 'samples.parquet'), samples, { rowGroupRows: 262144, ...SAMPLES_PARQUET });
     } catch (e) {
       if ((e as NodeJS.ErrnoException).code !== 'ERR_MODULE_NOT_FOUND') throw e;
       await writeCsv(join(dl, 'samples.csv.gz'), samples);

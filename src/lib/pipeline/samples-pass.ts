@@ -17,6 +17,7 @@ import type { Bundle } from '../bundle/load.ts';
 import { ProblemSink } from '../bundle/coerce.ts';
 import { COVERAGE_LEVELS, coverage, pit, type CoverageResult } from '../core/population/calibration.ts';
 import { ParquetStreamWriter } from '../io/parquet.ts';
+import { SAMPLE_PARAM_KIND, SAMPLES_PARQUET } from './downloads.ts';
 import type { Column } from '../io/table.ts';
 import { flatten, groupedBatches, NotGrouped, sampleLayout, spilledBatches, type FlatBatch, type SampleLayout } from './summarise-stream.ts';
 
@@ -102,7 +103,7 @@ export async function streamSampleProducts(bundle: Bundle, opts: SamplesPassOpti
     counted = truthParams.map(() => 0);
     pits = truthParams.map(() => new Float64Array(n).fill(NaN));
     rows = 0;
-    const writer = opts.parquetPath ? new ParquetStreamWriter(opts.parquetPath, samplesColumns(bundle, L), { rowGroupRows: opts.rowGroupRows ?? 262144 }) : null;
+    const writer = opts.parquetPath ? new ParquetStreamWriter(opts.parquetPath, samplesColumns(bundle, L), { rowGroupRows: opts.rowGroupRows ?? 262144, ...SAMPLES_PARQUET }) : null;
     return {
       async add(b) {
         const { linear, normalised: w } = batchWeights(b, L.logWeights);
@@ -162,7 +163,8 @@ function samplesColumns(bundle: Bundle, L: SampleLayout): Column[] {
   const columns: Column[] = [
     { name: 'id', kind: 'string', values: [], ucd: 'meta.id', description: 'object identifier' },
     { name: 'weight', kind: 'float64', values: new Float64Array(0), ucd: 'stat.weight', description: 'importance weight, normalised to sum to 1 per object' },
-    ...config.parameters.map((p): Column => ({ name: p.name, kind: 'float64', values: new Float64Array(0), unit: p.unit || undefined, ucd: p.ucd, description: p.description })),
+    // single precision, as in the per-object files (downloads.ts, SAMPLE_PARAM_KIND)
+    ...config.parameters.map((p): Column => ({ name: p.name, kind: SAMPLE_PARAM_KIND, values: new Float32Array(0), unit: p.unit || undefined, ucd: p.ucd, description: p.description })),
   ];
   if (L.logPrior) columns.push({ name: 'log_prior', kind: 'float64', values: new Float64Array(0), description: 'natural log of the interim prior density of the draw' });
   return columns;
