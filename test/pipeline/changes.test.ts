@@ -195,7 +195,7 @@ describe('an earlier release that cannot be compared is refused, naming the file
       r.columns.find((c: { name: string }) => c.name === 'log_sfr_p50').unit = 'solMass/yr';
       r.columns = r.columns.filter((c: { name: string }) => c.name !== 'log_mstar_p16');
     });
-    expect(p).toContainEqual(expect.objectContaining({ file: '<prev>/release.json', column: 'log_sfr_p50', expected: '"log(solMass/yr)"', got: '"solMass/yr"' }));
+    expect(p).toContainEqual(expect.objectContaining({ file: '<prev>/release.json', column: 'log_sfr_p50', expected: '"dex(solMass/yr)"', got: '"solMass/yr"' }));
     expect(p).toContainEqual(expect.objectContaining({ column: 'log_mstar_p16', message: 'the earlier catalogue has no such column' }));
   });
   it('the same version, and a newer one', async () => {

@@ -99,12 +99,14 @@ export function tenths(v: number): string {
  * then relative steps between the rounded points (so rounding never accumulates), optionally
  * closed. Non-finite points end one sub-path and start the next.
  */
-export function polyPath(xs: ArrayLike<number>, ys: ArrayLike<number>, close = false): string {
+export function polyPath(xs: ArrayLike<number>, ys: ArrayLike<number>, close = false, only?: ArrayLike<number>): string {
   let d = '';
   let px0 = 0, py0 = 0;
   let open = false;
   let count = 0;
-  for (let i = 0; i < xs.length; i++) {
+  const n = only ? only.length : xs.length;
+  for (let k = 0; k < n; k++) {
+    const i = only ? only[k] : k;
     const x = xs[i], y = ys[i];
     if (!Number.isFinite(x) || !Number.isFinite(y)) {
       if (open && close && count > 2) d += 'z';
@@ -185,6 +187,5 @@ export function simplifyIndices(xs: ArrayLike<number>, ys: ArrayLike<number>, to
 
 /** `polyPath` of the polyline simplified at `tol` pixels (see `simplifyIndices`). */
 export function simplePath(xs: ArrayLike<number>, ys: ArrayLike<number>, tol: number, close = false): string {
-  const k = simplifyIndices(xs, ys, tol);
-  return polyPath(k.map((i) => xs[i]), k.map((i) => ys[i]), close);
+  return polyPath(xs, ys, close, simplifyIndices(xs, ys, tol));
 }
