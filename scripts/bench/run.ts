@@ -60,7 +60,13 @@ function task(name: string, args: string[], timeoutS = 3600): Promise<Result | {
         if (tree) r.maxRssTreeMB = Number(tree[1]) / 1024;
         ok(r);
       } else {
-        const why = timedOut ? `killed after ${timeoutS} s` : code === null ? `killed by ${signal} (out of memory?)` : `exit ${code}: ${err.trim().split('\n').slice(-3).join(' | ')}`;
+        // the error's own line (an uncaught exception ends with Node's version, which says nothing),
+        // then the last lines
+        const lines = err.trim().split('\n');
+        const thrown = lines.find((l) => /^\w*(Error|Exception)\b|^\s*\[?\w+Error/.test(l.trim()));
+        const why = timedOut ? `killed after ${timeoutS} s` : code === null ? `killed by ${signal} (out of memory?)` : `exit ${code}: ${[...(thrown ? [thrown.trim()] : []), ...lines.slice(-3)].join(' | ')}`;
+        // the whole of stderr, for the next person
+        void writeFile(join(ROOT, 'bench', 'results', `failed-${name}.log`), err).catch(() => {});
         process.stderr.write(`failed (${why})\n`);
         ok({ error: why });
       }
@@ -77,6 +83,8 @@ interface Row {
   target: string;
   status: 'met' | 'missed' | 'info' | 'not measured yet' | 'failed';
   note?: string;
+  /** When the row was measured (the run's start); rows kept from earlier runs keep theirs. */
+  measured?: string;
 }
 
 /** Why a target is missed, from what this benchmark measures (keyed by the start of the row's text; measured causes are added in `main`). */
@@ -84,8 +92,10 @@ const CAUSES: [string, string][] = [
   ['summaries / raw scan', 'The per-object kernel sets the time, not the reading (see the "summaries / read floor" rows and the per-object row).'],
   ['peak resident memory', 'Memory is held by the decoded record batches in flight and the per-object population draws (64 per object and parameter) kept for the relation fits.'],
   ['hierarchical relation fit', 'One exponential per draw per likelihood evaluation: 2x10^4 x 256 = 5.1x10^6 draws times about 6,700 evaluations (16 walkers x 400 steps plus the mode search), about 3.4x10^10 in all, in a WebAssembly SIMD kernel (4 float32 lanes while sampling) split over both cores, with each half of the ensemble evaluated in one pass over the draws. The fit\'s default sub-sampling to 64 draws per object (each marginal likelihood stays unbiased) would cut it by 4; fewer steps would not do, as the diagnostics show split R-hat near 1.2 at this length.'],
-  ['object page build time', 'Object pages carry their figures as inline SVG (an SED with residuals and a corner plot of every parameter pair), so each is far larger than the one-paragraph trivial page, and Astro\'s per-page time grows with the HTML it writes.'],
-  ['bytes per object page', 'Inline SVG figures dominate the page; a corner plot of k parameters has k(k-1)/2 contour panels.'],
+  ['object page build time', "An object page is far more than the one-paragraph trivial page: Astro renders its tables and three inline SVG figures (both SEDs and the posterior matrix, about 45 KB with 8 parameters; drawn before the site build, see the figures row) from two JSON files per page, writes a folder and about 55 KB of HTML, and the relative-links pass (src/integrations/relative-urls.ts) reads and rewrites each page's head once more. A profile of an earlier 200-page build put about 1.4 ms per page in rendering, 1.1 ms in the relative-links pass (since narrowed to the head and to bodies that need it) and 1 ms in making the page's folder. Next step: links written relative at render time, so the post-build pass leaves object pages alone, and one content file per object page."],
+  ['bytes per object page', 'The three inline SVG figures are about 46 KB of the page with 8 parameters; the posterior matrix of k parameters has k(k-1)/2 pair panels, each with two filled credible regions, so the page grows with k^2.'],
+  ['object figures per object', 'Drawing is string building: the posterior matrix traces and writes two filled regions for each of k(k-1)/2 pair panels and the SEDs one path per model and band set.'],
+  ['site without the downloads', 'Viewer pages are small; the bytes are in the shards (every object\'s content, gzip) and the site\'s population figures.'],
 ];
 
 function gapSection(rows: Row[], measured: [string, string][] = []): string[] {
@@ -358,6 +368,21 @@ export async function main(argv: string[]): Promise<number> {
         note: `measured at ${big} (${f(v0.seconds, 0)} s) and ${projection} (${f(v1.seconds, 0)} s) objects in this run; projection = the ${projection}-object value x (10^6 / ${projection})^exponent`,
       });
     }
+    // the growth of the complete-page builds between the two sizes, whether or not the
+    // projection build ran
+    const s0 = get(`build.static.${sizes[0]}`), s1 = get(`build.static.${big}`);
+    if (s0 && s1 && big > sizes[0]) {
+      const ex = (a: number, c: number) => Math.log(c / a) / Math.log(big / sizes[0]);
+      const e = { time: ex(s0.seconds, s1.seconds), site: ex(s0.siteBytes - s0.downloadBytes, s1.siteBytes - s1.downloadBytes), memory: ex(s0.maxRssTreeMB ?? s0.maxRssMB, s1.maxRssTreeMB ?? s1.maxRssMB) };
+      const at = (v: number, x: number) => v * (1e6 / big) ** x;
+      rows.push({
+        what: `growth ${sizes[0]} -> ${big} objects (a complete page per object), projected to 10^6`,
+        value: `exponents: time ${f(e.time)}, site ${f(e.site)}, memory ${f(e.memory)}; 10^6 projected: ${f(at(s1.seconds, e.time) / 60, 0)} min, site ${f(at(s1.siteBytes - s1.downloadBytes, e.site) / GB, 1)} GB without downloads, peak ${f(at(s1.maxRssTreeMB ?? s1.maxRssMB, e.memory) / 1024, 1)} GB`,
+        target: 'exponents 1 (linear) or less',
+        status: 'info',
+        note: `measured at ${sizes[0]} (${f(s0.seconds, 0)} s) and ${big} (${f(s1.seconds, 0)} s) objects in this run; projection = the ${big}-object value x (10^6 / ${big})^exponent. Complete pages are the default only up to site.objectPageLimit (50 000)`,
+      });
+    }
   }
   const k = get('kernel');
   if (k && doSummaries) {
@@ -420,11 +445,12 @@ export async function main(argv: string[]): Promise<number> {
     try {
       const prev = JSON.parse(await readFile(join(dir, 'bench.json'), 'utf8')) as { started: string; othersFrom?: string; rows: Row[]; raw: Record<string, unknown>; sizes?: number[] };
       const mine = new Set(rows.map((r) => r.what.split(',')[0]));
-      const others = prev.rows.filter((r) => !mine.has(r.what.split(',')[0]));
+      const others = prev.rows.filter((r) => !mine.has(r.what.split(',')[0])).map((r) => ({ ...r, measured: r.measured ?? prev.othersFrom ?? prev.started }));
+      for (const r of rows) r.measured ??= started.toISOString();
       rows.unshift(...others);
       for (const [key, v] of Object.entries(prev.raw ?? {})) if (!(key in raw)) raw[key] = v;
       othersFrom = prev.othersFrom ?? prev.started;
-      kept = ` Only \`${only}\` was run now; the other ${others.length} rows are from the run of ${othersFrom}.`;
+      kept = ` Only \`${only}\` was run now; the other ${others.length} rows are kept from earlier runs, each marked with the date it was measured.`;
     } catch {
       /* no previous report: just this task's rows */
     }
@@ -464,7 +490,7 @@ export async function main(argv: string[]): Promise<number> {
     '',
     '| measurement | value | target | status | note |',
     '| --- | --- | --- | --- | --- |',
-    ...rows.map((r) => `| ${r.what} | ${r.value} | ${r.target} | ${r.status} | ${r.note ?? ''} |`),
+    ...rows.map((r) => `| ${r.what} | ${r.value} | ${r.target} | ${r.status} | ${[r.note, r.measured && r.measured !== started.toISOString() ? `measured ${r.measured.slice(0, 16).replace('T', ' ')} UTC` : ''].filter(Boolean).join('; ')} |`),
     '',
     ...gapSection(rows, measured),
     'Read floor: the Arrow IPC samples file opened by `IpcFile` (src/lib/io/arrow-ipc.ts, the reader the summaries use), its record batches located from the footer, each read in the blocks of 131072 rows the summaries read with one read per column buffer into fresh memory, Float32Array/Float64Array views laid over the buffers, every value of the columns the summaries read (8 parameters, weight, log prior) summed and neighbouring ids compared by their bytes in the offsets and data buffers; one thread, nothing decoded. Raw scan: `readTableBatches` (the general reader) over the same columns, summing every value (ids: their lengths). Summaries: `summariseAll` on a bundle loaded without samples, streaming the file, without corner data unless the row says so (then as the pipeline does: JSON text from the workers into the `ChartSpool`). DuckDB: `read_parquet` grouped by id, weighted mean and one-pass weighted standard deviation of the 8 parameters. CPU times are of every thread of the task; "main thread busy" is its event-loop utilisation.',
