@@ -11,12 +11,15 @@ import { fileURLToPath } from 'node:url';
 import type { AstroIntegration } from 'astro';
 import { rel } from '../site/paths.ts';
 
-/** Files under `dir`, relative paths with forward slashes, sorted. */
-function walk(dir: string, base = dir): string[] {
-  const out: string[] = [];
+/**
+ * Files under `dir`, relative paths with forward slashes, sorted. One array is filled on the
+ * way down: spreading a folder's files into its parent's (`push(...files)`) passes each file as
+ * an argument and overflows the stack once a folder holds about 10^5 (objects/ of a large site).
+ */
+export function walk(dir: string, base = dir, out: string[] = []): string[] {
   for (const name of readdirSync(dir).sort()) {
     const full = join(dir, name);
-    if (statSync(full).isDirectory()) out.push(...walk(full, base));
+    if (statSync(full).isDirectory()) walk(full, base, out);
     else out.push(relative(base, full).split(sep).join('/'));
   }
   return out;

@@ -1,7 +1,9 @@
-import { readFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { rel, PATHS } from '../../src/site/paths.ts';
-import { relativise } from '../../src/integrations/relative-urls.ts';
+import { relativise, walk } from '../../src/integrations/relative-urls.ts';
 import { DARK_REMAP } from '../../src/lib/charts/theme.ts';
 
 describe('rel', () => {
@@ -19,6 +21,27 @@ describe('rel', () => {
   it('puts ids in URLs only through the slug', () => {
     expect(PATHS.objectOfId('a/b c')).toBe('/objects/a~2Fb~20c/');
   });
+});
+
+describe('walk', () => {
+  // a folder of 2x10^5 object pages once overflowed the stack (each file spread as an argument);
+  // 160 000 files in one folder is past that limit on Node 20's default stack
+  it('lists nested files sorted, and a folder of 160 000 files', () => {
+    const dir = mkdtempSync(join(tmpdir(), 'posterity-walk-'));
+    try {
+      mkdirSync(join(dir, 'b', 'many'), { recursive: true });
+      writeFileSync(join(dir, 'a.html'), '');
+      writeFileSync(join(dir, 'b', 'c.css'), '');
+      const N = 160000;
+      for (let i = 0; i < N; i++) writeFileSync(join(dir, 'b', 'many', `${String(i).padStart(6, '0')}.txt`), '');
+      const files = walk(dir);
+      expect(files.length).toBe(N + 2);
+      expect(files.slice(0, 3)).toEqual(['a.html', 'b/c.css', 'b/many/000000.txt']);
+      expect(files[files.length - 1]).toBe('b/many/159999.txt');
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
+  }, 120000);
 });
 
 describe('relativise', () => {
