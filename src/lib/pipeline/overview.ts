@@ -65,7 +65,9 @@ export function siteOverview(objects: ObjectsData, summary: SummaryTable, popula
     if (c) c.n++;
     else cells.set(key, { x: Number((xMin + (cx + 0.5) * cellSize).toPrecision(6)), y: Number((yMin + (cy + 0.5) * cellSize).toPrecision(6)), n: 1 });
   }
-  const zMax = Math.max(0.5, ...Array.from(objects.redshift).filter(Number.isFinite));
+  // a loop, not Math.max(...values): spreading 2x10^5 values as arguments overflows the stack
+  let zMax = 0.5;
+  for (const z of objects.redshift) if (Number.isFinite(z) && z > zMax) zMax = z;
   const dz = Number((zMax / 30).toPrecision(2));
   const zEdges = Array.from({ length: Math.ceil(zMax / dz) + 1 }, (_, i) => Number((i * dz).toFixed(6)));
   const zCounts = new Array<number>(zEdges.length - 1).fill(0);
