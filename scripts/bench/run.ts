@@ -497,12 +497,15 @@ export async function main(argv: string[]): Promise<number> {
     'Read floor: the Arrow IPC samples file opened by `IpcFile` (src/lib/io/arrow-ipc.ts, the reader the summaries use), its record batches located from the footer, each read in the blocks of 131072 rows the summaries read with one read per column buffer into fresh memory, Float32Array/Float64Array views laid over the buffers, every value of the columns the summaries read (8 parameters, weight, log prior) summed and neighbouring ids compared by their bytes in the offsets and data buffers; one thread, nothing decoded. Raw scan: `readTableBatches` (the general reader) over the same columns, summing every value (ids: their lengths). Summaries: `summariseAll` on a bundle loaded without samples, streaming the file, without corner data unless the row says so (then as the pipeline does: JSON text from the workers into the `ChartSpool`). DuckDB: `read_parquet` grouped by id, weighted mean and one-pass weighted standard deviation of the 8 parameters. CPU times are of every thread of the task; "main thread busy" is its event-loop utilisation.',
     '',
   ].join('\n');
-  await mkdir(dir, { recursive: true });
-  await writeFile(join(dir, 'bench.md'), md);
-  // paths in the report are relative to the repository, never this machine's absolute paths
+  // paths in the report are relative to the repository, never this machine's absolute paths,
+  // wherever they stand in a text (error messages quote them too): the cache as `bench/cache/`,
+  // the repository's own files relative to it, and a cache of another checkout (kept rows) alike
   const root = resolve(dir, '..', '..') + sep;
-  const repoRelative = (_k: string, v: unknown) => (typeof v === 'string' && v.startsWith(root) ? v.slice(root.length) : v);
-  await writeFile(join(dir, 'bench.json'), JSON.stringify({ started: started.toISOString(), ...(othersFrom ? { only, othersFrom } : {}), machine, workers: Number(workers), sizes, rows, raw }, repoRelative, 2) + '\n');
+  const portable = (t: string) => t.split(cache + sep).join('bench/cache/').split(root).join('').replace(/(?:\/[^\s"'|()/]+)+\/bench\/cache\//g, 'bench/cache/');
+  const portableValue = (_k: string, v: unknown) => (typeof v === 'string' ? portable(v) : v);
+  await mkdir(dir, { recursive: true });
+  await writeFile(join(dir, 'bench.md'), portable(md));
+  await writeFile(join(dir, 'bench.json'), JSON.stringify({ started: started.toISOString(), ...(othersFrom ? { only, othersFrom } : {}), machine, workers: Number(workers), sizes, rows, raw }, portableValue, 2) + '\n');
   process.stdout.write(md);
   return anyFailed ? 1 : 0;
 }
