@@ -182,7 +182,8 @@ export async function main(argv: string[]): Promise<number> {
     for (const [n, mode] of builds) {
       await run(`gen.${n}`, 'gen', [cache, String(n)], 4 * 3600);
       await run(`build.${mode}.${n}`, 'build', [bundlePaths(cache, n).full, mode], 3 * 3600);
-      const sample = get0(`build.static.${sizes[0]}`)?.figureSample as string | undefined;
+      // the figures from the objects the smallest static build kept, right after it
+      const sample = mode === 'static' && n === sizes[0] ? (get0(`build.static.${n}`)?.figureSample as string | undefined) : undefined;
       if (sample) await run('figures', 'figures', [sample]);
     }
   }
@@ -356,34 +357,25 @@ export async function main(argv: string[]): Promise<number> {
         note: mode === 'viewer' ? `the page at each object's address ${f(b.pageRawMean / 1024, 1)} KB, its shard and lookup share ${f(b.dataPerObject / 1024, 1)} KB (gzip)` : `complete pages with inline figures, ${f(b.pageRawMean / 1024, 1)} KB each on average: a static host stores every page as it is`,
       });
     }
-    const v0 = get(`build.viewer.${big}`), v1 = get(`build.viewer.${projection}`);
-    if (v0 && v1) {
-      const ex = (a: number, c: number) => Math.log(c / a) / Math.log(projection / big);
-      const e = { time: ex(v0.seconds, v1.seconds), site: ex(v0.siteBytes - v0.downloadBytes, v1.siteBytes - v1.downloadBytes), memory: ex(v0.maxRssTreeMB ?? v0.maxRssMB, v1.maxRssTreeMB ?? v1.maxRssMB) };
-      const at = (v: number, x: number) => v * (1e6 / projection) ** x;
+    // growth between two builds of one mode, projected to 10^6 from the larger
+    const growth = (b0: Result | null, b1: Result | null, n0: number, n1: number, mode: string, extra = '') => {
+      if (!b0 || !b1 || n1 <= n0) return;
+      const ex = (a: number, c: number) => Math.log(c / a) / Math.log(n1 / n0);
+      const site = (b: Result) => b.siteBytes - b.downloadBytes;
+      const peak = (b: Result) => b.maxRssTreeMB ?? b.maxRssMB;
+      const e = { time: ex(b0.seconds, b1.seconds), site: ex(site(b0), site(b1)), memory: ex(peak(b0), peak(b1)) };
+      const at = (v: number, x: number) => v * (1e6 / n1) ** x;
       rows.push({
-        what: `growth ${big} -> ${projection} objects (viewer pages), projected to 10^6`,
-        value: `exponents: time ${f(e.time)}, site ${f(e.site)}, memory ${f(e.memory)}; 10^6 projected: ${f(at(v1.seconds, e.time) / 60, 0)} min, site ${f(at(v1.siteBytes - v1.downloadBytes, e.site) / GB, 1)} GB without downloads, peak ${f(at(v1.maxRssTreeMB ?? v1.maxRssMB, e.memory) / 1024, 1)} GB`,
+        what: `growth ${n0} -> ${n1} objects (${mode}), projected to 10^6`,
+        value: `exponents: time ${f(e.time)}, site ${f(e.site)}, memory ${f(e.memory)}; 10^6 projected: ${f(at(b1.seconds, e.time) / 60, 0)} min, site ${f(at(site(b1), e.site) / GB, 1)} GB without downloads, peak ${f(at(peak(b1), e.memory) / 1024, 1)} GB`,
         target: 'exponents 1 (linear) or less',
         status: 'info',
-        note: `measured at ${big} (${f(v0.seconds, 0)} s) and ${projection} (${f(v1.seconds, 0)} s) objects in this run; projection = the ${projection}-object value x (10^6 / ${projection})^exponent`,
+        note: `measured at ${n0} (${f(b0.seconds, 0)} s) and ${n1} (${f(b1.seconds, 0)} s) objects in this run; projection = the ${n1}-object value x (10^6 / ${n1})^exponent${extra}`,
       });
-    }
-    // the growth of the complete-page builds between the two sizes, whether or not the
-    // projection build ran
-    const s0 = get(`build.static.${sizes[0]}`), s1 = get(`build.static.${big}`);
-    if (s0 && s1 && big > sizes[0]) {
-      const ex = (a: number, c: number) => Math.log(c / a) / Math.log(big / sizes[0]);
-      const e = { time: ex(s0.seconds, s1.seconds), site: ex(s0.siteBytes - s0.downloadBytes, s1.siteBytes - s1.downloadBytes), memory: ex(s0.maxRssTreeMB ?? s0.maxRssMB, s1.maxRssTreeMB ?? s1.maxRssMB) };
-      const at = (v: number, x: number) => v * (1e6 / big) ** x;
-      rows.push({
-        what: `growth ${sizes[0]} -> ${big} objects (a complete page per object), projected to 10^6`,
-        value: `exponents: time ${f(e.time)}, site ${f(e.site)}, memory ${f(e.memory)}; 10^6 projected: ${f(at(s1.seconds, e.time) / 60, 0)} min, site ${f(at(s1.siteBytes - s1.downloadBytes, e.site) / GB, 1)} GB without downloads, peak ${f(at(s1.maxRssTreeMB ?? s1.maxRssMB, e.memory) / 1024, 1)} GB`,
-        target: 'exponents 1 (linear) or less',
-        status: 'info',
-        note: `measured at ${sizes[0]} (${f(s0.seconds, 0)} s) and ${big} (${f(s1.seconds, 0)} s) objects in this run; projection = the ${big}-object value x (10^6 / ${big})^exponent. Complete pages are the default only up to site.objectPageLimit (50 000)`,
-      });
-    }
+    };
+    growth(get(`build.viewer.${big}`), get(`build.viewer.${projection}`), big, projection, 'viewer pages');
+    // the complete-page builds between the two sizes, whether or not the projection build ran
+    growth(get(`build.static.${sizes[0]}`), get(`build.static.${big}`), sizes[0], big, 'a complete page per object', '. Complete pages are the default only up to site.objectPageLimit (50 000)');
   }
   const k = get('kernel');
   if (k && doSummaries) {
